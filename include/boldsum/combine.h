@@ -1,0 +1,15 @@
+// Runs -> subject: inverse-variance fixed-effects combination of contrast estimates.
+#pragma once
+
+#include <vector>
+
+#include "boldsum/fit.h"
+
+namespace boldsum {
+
+// Per voxel, with W_r = Cov_r^-1: Cov = (sum W_r)^-1, effect = Cov * sum W_r e_r,
+// dof = sum dof_r. Only estimable runs are passed in; a voxel is valid when it is
+// valid in every run given. Throws Error when `runs` is empty or shapes differ.
+ContrastEstimate CombineFixedEffects(const std::vector<const ContrastEstimate*>& runs);
+
+}  // namespace boldsum

@@ -1,0 +1,24 @@
+// Distributions, and the conversion of t and F statistics to z through the upper tail.
+#pragma once
+
+namespace boldsum {
+
+// Natural log of the upper-tail probability P(T > t) for Student's t with `dof`
+// degrees of freedom (dof > 0, not necessarily integer). Finite for every finite t.
+double LogUpperTailT(double t, double dof);
+
+// log P(F > f) for the F distribution with (dof1, dof2) degrees of freedom; f >= 0.
+double LogUpperTailF(double f, double dof1, double dof2);
+
+// The z whose standard-normal upper tail equals the log-probability `log_p`
+// (log_p <= 0). Accurate where exp(log_p) underflows (asymptotic expansion).
+double ZFromLogUpperTail(double log_p);
+
+// z with P(Z > z) = P(T > t): finite, monotone and odd in t for |t| up to at least
+// 1e3 and any dof >= 1. NaN in, NaN out.
+double ZFromT(double t, double dof);
+
+// z with P(Z > z) = P(F > f); f >= 0. NaN in, NaN out.
+double ZFromF(double f, double dof1, double dof2);
+
+}  // namespace boldsum
