@@ -33,13 +33,20 @@ struct DesignMatrix {
   std::vector<std::string> names() const;
 };
 
-// A confounds table: named numeric columns with one row per volume. `n/a` cells have
-// already been replaced by the rule documented in the README.
+// A run's confounds: the model's confound columns (in model order) with one row per
+// volume, `n/a` cells already replaced by the documented rule (the mean of the
+// column's numeric cells), and the censoring signal when the model censors.
 struct ConfoundTable {
-  std::string path;
-  std::vector<std::string> names;
-  Eigen::MatrixXd values;  // rows = volumes
+  std::string path;                // "" when the run has no confounds file
+  std::vector<std::string> names;  // == model.confounds
+  Eigen::MatrixXd values;          // rows = volumes
+  Eigen::VectorXd censor_signal;   // empty unless model.censor; n/a reads as 0
 };
+
+// Reads run.confounds_path and selects the model's columns. Throws Error at the file
+// (and line/column where there is one) for a missing column, a non-numeric cell, or a
+// column that is entirely n/a.
+ConfoundTable LoadConfounds(const ModelSpec& model, const RunSpec& run);
 
 // Builds the design of one run with n_volumes volumes. Problems that make the design
 // unusable throw Error (e.g. a confounds table whose row count differs from
