@@ -1,0 +1,34 @@
+// A subject's outputs are written into a hidden staging folder beside OUT/<subject>
+// and swapped into place only when all of them are complete, so an interrupted or
+// failed run leaves the earlier results (or nothing) and never a partial set.
+#pragma once
+
+#include <string>
+
+namespace boldsum {
+
+class OutputStage {
+ public:
+  // Creates OUT/.<name>.staging-<pid>/ (removing a stale one of the same name).
+  OutputStage(const std::string& root, const std::string& name);
+  // Removes the staging folder unless Commit() succeeded.
+  ~OutputStage();
+  OutputStage(const OutputStage&) = delete;
+  OutputStage& operator=(const OutputStage&) = delete;
+
+  // Path of `relative` inside the staging folder; parent folders are created.
+  std::string PathFor(const std::string& relative) const;
+
+  // Path of folder `relative` inside the staging folder, created.
+  std::string FolderFor(const std::string& relative) const;
+
+  // Replaces OUT/<name> by the staging folder (old folder renamed aside, then removed).
+  void Commit();
+
+ private:
+  std::string final_dir_;
+  std::string staging_dir_;
+  bool committed_ = false;
+};
+
+}  // namespace boldsum

@@ -1,0 +1,149 @@
+#include "study/subject_fit.h"
+
+#include <algorithm>
+#include <cmath>
+
+namespace boldsum {
+namespace {
+
+// Voxels fitted for an image subject: the config's mask (nonzero, finite), or the
+// intersection of every run's automatic mask.
+std::vector<int64_t> SubjectVoxels(const StudySpec& spec, const SubjectPlan& plan) {
+  const ImageGeometry& grid = plan.runs.front().geometry;
+  if (!spec.mask_path.empty()) {
+    ImageGeometry mask_geometry;
+    const std::vector<float> mask = ReadVolume(spec.mask_path, &mask_geometry);
+    if (!mask_geometry.SameSpace(grid)) {
+      throw Error(spec.mask_path + ": mask grid or orientation differs from " +
+                  plan.runs.front().spec->data_path);
+    }
+    std::vector<int64_t> voxels;
+    for (int64_t i = 0; i < static_cast<int64_t>(mask.size()); ++i) {
+      if (std::isfinite(mask[i]) && mask[i] != 0.0f) voxels.push_back(i);
+    }
+    return voxels;
+  }
+  std::vector<int64_t> voxels = AutomaticMask(plan.runs.front().spec->data_path);
+  for (size_t r = 1; r < plan.runs.size(); ++r) {
+    const std::vector<int64_t> other = AutomaticMask(plan.runs[r].spec->data_path);
+    std::vector<int64_t> both;
+    std::set_intersection(voxels.begin(), voxels.end(), other.begin(), other.end(),
+                          std::back_inserter(both));
+    voxels.swap(both);
+  }
+  return voxels;
+}
+
+// Fixed effects over the runs that can estimate the contrast.
+void CombineContrast(const SubjectFit& subject, ContrastOutcome* outcome, int threads) {
+  std::vector<const ContrastEstimate*> usable;
+  for (size_t r = 0; r < outcome->per_run.size(); ++r) {
+    const int index = subject.plan.runs[r].index;
+    if (outcome->per_run[r].estimable) {
+      usable.push_back(&outcome->per_run[r]);
+      outcome->runs_used.push_back(index);
+    } else {
+      outcome->runs_left_out.push_back(index);
+    }
+  }
+  outcome->estimable = !usable.empty();
+  if (!outcome->estimable) return;
+  outcome->combined = CombineFixedEffects(usable);
+  outcome->test = TestContrast(outcome->combined, outcome->spec->is_f, threads);
+}
+
+}  // namespace
+
+std::vector<int64_t> AutomaticMask(const std::string& image_path) {
+  ImageGeometry geometry;
+  const std::vector<float> first = ReadVolume(image_path, &geometry);
+  std::vector<float> finite;
+  finite.reserve(first.size());
+  for (float value : first) {
+    if (std::isfinite(value)) finite.push_back(value);
+  }
+  std::vector<int64_t> voxels;
+  if (finite.empty()) return voxels;
+  const size_t rank = static_cast<size_t>(0.98 * static_cast<double>(finite.size() - 1));
+  std::nth_element(finite.begin(), finite.begin() + static_cast<std::ptrdiff_t>(rank),
+                   finite.end());
+  const float threshold = 0.2f * finite[rank];
+  for (int64_t i = 0; i < static_cast<int64_t>(first.size()); ++i) {
+    if (std::isfinite(first[i]) && first[i] > threshold) voxels.push_back(i);
+  }
+  return voxels;
+}
+
+SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads) {
+  SubjectFit subject;
+  subject.plan = std::move(plan);
+  const std::vector<RunPlan>& runs = subject.plan.runs;
+  FitOptions options;
+  options.noise = spec.model.noise;
+  options.threads = threads;
+
+  if (subject.plan.kind == DataKind::kImage) {
+    subject.geometry = runs.front().geometry;
+    subject.voxels = SubjectVoxels(spec, subject.plan);
+    if (subject.voxels.empty()) {
+      throw Error("subject " + subject.plan.spec->id + ": the mask holds no voxels");
+    }
+  } else {
+    subject.regions = runs.front().regions.names;
+  }
+
+  for (const RunPlan& run : runs) {
+    subject.warnings.Append(run.warnings);
+    if (run.kind == DataKind::kImage) {
+      // Blocks of 32 volumes keep memory flat in N while GEMM stays efficient.
+      VolumeStream stream(run.spec->data_path, subject.voxels, 32);
+      struct StreamSource : BlockSource {
+        VolumeStream* stream;
+        int volumes;
+        int voxels;
+        int n_volumes() const override { return volumes; }
+        int n_voxels() const override { return voxels; }
+        bool Next(Eigen::MatrixXf* block) override { return stream->Next(block); }
+      } source;
+      source.stream = &stream;
+      source.volumes = run.n_volumes;
+      source.voxels = static_cast<int>(subject.voxels.size());
+      subject.runs.push_back(FitRun(run.design.x, &source, options));
+    } else {
+      MatrixSource source(run.regions.values);
+      subject.runs.push_back(FitRun(run.design.x, &source, options));
+    }
+  }
+
+  const size_t n_voxels = subject.runs.front().valid.size();
+  subject.valid.assign(n_voxels, 1);
+  for (const RunFit& fit : subject.runs) {
+    for (size_t v = 0; v < n_voxels; ++v) subject.valid[v] &= fit.valid[v];
+  }
+
+  for (const ContrastSpec& contrast : spec.contrasts) {
+    ContrastOutcome outcome;
+    outcome.spec = &contrast;
+    for (size_t r = 0; r < runs.size(); ++r) {
+      outcome.weights.push_back(ContrastWeights(contrast, runs[r].design));
+      outcome.per_run.push_back(EstimateContrast(subject.runs[r], outcome.weights.back(), options));
+    }
+    CombineContrast(subject, &outcome, threads);
+    for (int index : outcome.runs_left_out) {
+      subject.warnings.AddWarning(
+          runs[static_cast<size_t>(index - 1)].spec->where,
+          "subject " + subject.plan.spec->id + ", run " + std::to_string(index) +
+              ": contrast '" + contrast.name +
+              "' cannot be estimated from this run's design; the run is left out of it");
+    }
+    if (!outcome.estimable) {
+      subject.warnings.AddWarning(contrast.where, "subject " + subject.plan.spec->id +
+                                                      ": contrast '" + contrast.name +
+                                                      "' cannot be estimated from any run");
+    }
+    subject.contrasts.push_back(std::move(outcome));
+  }
+  return subject;
+}
+
+}  // namespace boldsum

@@ -1,0 +1,244 @@
+#include "study/subject_outputs.h"
+
+#include <cmath>
+#include <limits>
+#include <sstream>
+
+namespace boldsum {
+namespace {
+
+constexpr float kNaN = std::numeric_limits<float>::quiet_NaN();
+
+// A per-voxel value spread onto the full grid; NaN outside the mask and where invalid.
+std::vector<float> ToGrid(const SubjectFit& subject, const Eigen::VectorXd& values) {
+  std::vector<float> grid(static_cast<size_t>(subject.geometry.n_voxels()), kNaN);
+  for (size_t v = 0; v < subject.voxels.size(); ++v) {
+    if (!subject.valid[v]) continue;
+    grid[static_cast<size_t>(subject.voxels[v])] =
+        static_cast<float>(values[static_cast<Eigen::Index>(v)]);
+  }
+  return grid;
+}
+
+void WriteMap(const SubjectFit& subject, const Eigen::VectorXd& values, const std::string& path) {
+  ImageGeometry geometry = subject.geometry;
+  geometry.n_volumes = 1;
+  WriteImage(path, geometry, ToGrid(subject, values));
+}
+
+std::string ColumnWeightsJson(const Eigen::MatrixXd& weights, const DesignMatrix& design) {
+  std::string rows = "[";
+  for (Eigen::Index i = 0; i < weights.rows(); ++i) {
+    std::string row = "{";
+    for (Eigen::Index j = 0; j < weights.cols(); ++j) {
+      if (weights(i, j) == 0.0) continue;
+      if (row.size() > 1) row += ", ";
+      row += JsonQuote(design.columns[static_cast<size_t>(j)].name) + ": " +
+             JsonNumber(weights(i, j));
+    }
+    rows += (i ? ", " : "") + row + "}";
+  }
+  return rows + "]";
+}
+
+std::string IntListJson(const std::vector<int>& values) {
+  std::string text = "[";
+  for (size_t i = 0; i < values.size(); ++i) text += (i ? ", " : "") + std::to_string(values[i]);
+  return text + "]";
+}
+
+double MeanValid(const Eigen::VectorXd& values, const std::vector<unsigned char>& valid) {
+  double sum = 0;
+  int count = 0;
+  for (Eigen::Index v = 0; v < values.size(); ++v) {
+    if (valid[static_cast<size_t>(v)]) {
+      sum += values[v];
+      ++count;
+    }
+  }
+  return count ? sum / count : std::nan("");
+}
+
+std::string SummaryJson(const StudySpec& spec, const SubjectFit& subject) {
+  std::ostringstream json;
+  const SubjectPlan& plan = subject.plan;
+  json << "{\n  \"tool\": \"boldsum\",\n  \"version\": " << JsonQuote(BOLDSUM_VERSION) << ",\n"
+       << "  \"subject\": " << JsonQuote(plan.spec->id) << ",\n"
+       << "  \"config\": " << JsonQuote(spec.config_path) << ",\n"
+       << "  \"config_sha256\": " << JsonQuote(FileSha256(spec.config_path)) << ",\n"
+       << "  \"data_kind\": " << JsonQuote(plan.kind == DataKind::kImage ? "image" : "regions")
+       << ",\n"
+       << "  \"autocorrelation\": "
+       << JsonQuote(spec.model.noise == NoiseModel::kAr1 ? "ar1" : "none") << ",\n";
+  if (plan.kind == DataKind::kImage) {
+    int in_mask = 0;
+    for (unsigned char ok : subject.valid) in_mask += ok;
+    json << "  \"mask\": " << JsonQuote(spec.mask_path.empty() ? "automatic" : spec.mask_path)
+         << ",\n  \"voxels_fitted\": " << subject.voxels.size()
+         << ",\n  \"voxels_in_output_mask\": " << in_mask << ",\n";
+  } else {
+    json << "  \"regions\": [";
+    for (size_t i = 0; i < subject.regions.size(); ++i) {
+      json << (i ? ", " : "") << JsonQuote(subject.regions[i]);
+    }
+    json << "],\n";
+  }
+  json << "  \"runs\": [";
+  for (size_t r = 0; r < plan.runs.size(); ++r) {
+    const RunPlan& run = plan.runs[r];
+    const RunFit& fit = subject.runs[r];
+    int censored = 0;
+    for (const DesignColumn& column : run.design.columns) censored += column.kind == ColumnKind::kCensor;
+    json << (r ? "," : "") << "\n    {\"run\": " << run.index
+         << ", \"data\": " << JsonQuote(run.spec->data_path)
+         << ", \"data_sha256\": " << JsonQuote(FileSha256(run.spec->data_path))
+         << ",\n     \"events\": " << JsonQuote(run.spec->events_path)
+         << ", \"events_sha256\": "
+         << (run.spec->events_path.empty() ? "null" : JsonQuote(FileSha256(run.spec->events_path)))
+         << ",\n     \"confounds\": " << JsonQuote(run.spec->confounds_path)
+         << ", \"confounds_sha256\": "
+         << (run.spec->confounds_path.empty() ? "null"
+                                              : JsonQuote(FileSha256(run.spec->confounds_path)))
+         << ",\n     \"volumes\": " << run.n_volumes << ", \"columns\": [";
+    for (size_t j = 0; j < run.design.columns.size(); ++j) {
+      json << (j ? ", " : "") << JsonQuote(run.design.columns[j].name);
+    }
+    json << "],\n     \"rank\": " << fit.rank << ", \"dof\": " << fit.dof
+         << ", \"censored_volumes\": " << censored
+         << ", \"mean_ar1\": " << JsonNumber(MeanValid(fit.rho, fit.valid))
+         << ", \"excluded_nonfinite\": " << fit.n_nonfinite
+         << ", \"excluded_zero_variance\": " << fit.n_constant << "}";
+  }
+  json << "\n  ],\n  \"contrasts\": [";
+  for (size_t c = 0; c < subject.contrasts.size(); ++c) {
+    const ContrastOutcome& outcome = subject.contrasts[c];
+    json << (c ? "," : "") << "\n    {\"name\": " << JsonQuote(outcome.spec->name)
+         << ", \"type\": " << JsonQuote(outcome.spec->is_f ? "F" : "t")
+         << ", \"rows\": " << outcome.spec->rows.size()
+         << ", \"estimable\": " << (outcome.estimable ? "true" : "false")
+         << ", \"dof\": " << JsonNumber(outcome.estimable ? outcome.combined.dof : std::nan(""))
+         << ",\n     \"runs_used\": " << IntListJson(outcome.runs_used)
+         << ", \"runs_left_out\": " << IntListJson(outcome.runs_left_out)
+         << ",\n     \"weights_by_run\": [";
+    for (size_t r = 0; r < outcome.weights.size(); ++r) {
+      json << (r ? ", " : "") << ColumnWeightsJson(outcome.weights[r], plan.runs[r].design);
+    }
+    json << "]}";
+  }
+  json << "\n  ],\n  \"warnings\": [";
+  const auto& warnings = subject.warnings.all();
+  for (size_t i = 0; i < warnings.size(); ++i) {
+    json << (i ? "," : "") << "\n    " << JsonQuote(warnings[i].ToString());
+  }
+  json << (warnings.empty() ? "]" : "\n  ]") << "\n}\n";
+  return json.str();
+}
+
+// ROI rows "contrast region estimate variance dof t z [ar1]" for t contrasts, and
+// "contrast region f dof1 dof2 z" for F contrasts.
+struct RegionTables {
+  std::string t_rows;
+  std::string f_rows;
+};
+
+void AddRegionRows(const ContrastSpec& contrast, const ContrastEstimate& estimate,
+                   const ContrastTest& test, const SubjectFit& subject,
+                   const RunFit* run_fit, RegionTables* tables) {
+  for (size_t v = 0; v < subject.regions.size(); ++v) {
+    const auto i = static_cast<Eigen::Index>(v);
+    const bool ok = estimate.valid[v] != 0;
+    const auto value = [&](double x) { return TsvNumber(ok ? x : std::nan("")); };
+    if (!contrast.is_f) {
+      tables->t_rows += contrast.name + "\t" + subject.regions[v] + "\t" +
+                        value(estimate.effect(0, i)) + "\t" + value(estimate.covariance(0, i)) +
+                        "\t" + TsvNumber(estimate.dof) + "\t" + value(test.stat[i]) + "\t" +
+                        value(test.z[i]);
+      if (run_fit) tables->t_rows += "\t" + value(run_fit->rho[i]);
+      tables->t_rows += "\n";
+    } else {
+      tables->f_rows += contrast.name + "\t" + subject.regions[v] + "\t" + value(test.stat[i]) +
+                        "\t" + std::to_string(estimate.q) + "\t" + TsvNumber(estimate.dof) +
+                        "\t" + value(test.z[i]) + "\n";
+    }
+  }
+}
+
+void WriteRegionTables(const RegionTables& tables, bool with_ar1, const std::string& folder,
+                       OutputStage* stage) {
+  const std::string prefix = folder.empty() ? "" : folder + "/";
+  WriteFileAtomically(stage->PathFor(prefix + "summary.tsv"),
+                      std::string("contrast\tregion\testimate\tvariance\tdof\tt\tz") +
+                          (with_ar1 ? "\tar1" : "") + "\n" + tables.t_rows);
+  WriteFileAtomically(stage->PathFor(prefix + "f_tests.tsv"),
+                      "contrast\tregion\tf\tdof1\tdof2\tz\n" + tables.f_rows);
+}
+
+}  // namespace
+
+std::string TsvNumber(double value) {
+  if (std::isnan(value)) return "n/a";
+  return JsonNumber(value);
+}
+
+void WriteRunDesign(const RunPlan& run, const std::string& subject_id,
+                    const std::string& folder) {
+  WriteFileAtomically(folder + "/design.tsv", DesignToTsv(run.design));
+  WriteFileAtomically(folder + "/design.svg",
+                      DesignToSvg(run.design, subject_id + " run " + std::to_string(run.index)));
+}
+
+void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject, OutputStage* stage) {
+  const SubjectPlan& plan = subject.plan;
+  const bool images = plan.kind == DataKind::kImage;
+  for (size_t r = 0; r < plan.runs.size(); ++r) {
+    const RunPlan& run = plan.runs[r];
+    const std::string folder = "run-" + std::to_string(run.index);
+    WriteRunDesign(run, plan.spec->id, stage->FolderFor(folder));
+    if (images) {
+      WriteMap(subject, subject.runs[r].rho, stage->PathFor(folder + "/ar1.nii.gz"));
+      continue;
+    }
+    RegionTables tables;
+    for (const ContrastOutcome& outcome : subject.contrasts) {
+      const ContrastEstimate& estimate = outcome.per_run[r];
+      if (!estimate.estimable) continue;
+      AddRegionRows(*outcome.spec, estimate, TestContrast(estimate, outcome.spec->is_f),
+                    subject, &subject.runs[r], &tables);
+    }
+    WriteRegionTables(tables, /*with_ar1=*/true, folder, stage);
+  }
+
+  RegionTables tables;
+  for (const ContrastOutcome& outcome : subject.contrasts) {
+    if (!outcome.estimable) continue;
+    const std::string& name = outcome.spec->name;
+    if (!images) {
+      AddRegionRows(*outcome.spec, outcome.combined, outcome.test, subject, nullptr, &tables);
+      continue;
+    }
+    if (!outcome.spec->is_f) {
+      WriteMap(subject, outcome.combined.effect.row(0).transpose(),
+               stage->PathFor(name + ".estimate.nii.gz"));
+      WriteMap(subject, outcome.combined.covariance.row(0).transpose(),
+               stage->PathFor(name + ".variance.nii.gz"));
+      WriteMap(subject, outcome.test.stat, stage->PathFor(name + ".t.nii.gz"));
+    } else {
+      WriteMap(subject, outcome.test.stat, stage->PathFor(name + ".f.nii.gz"));
+    }
+    WriteMap(subject, outcome.test.z, stage->PathFor(name + ".z.nii.gz"));
+  }
+  if (images) {
+    ImageGeometry geometry = subject.geometry;
+    geometry.n_volumes = 1;
+    std::vector<float> mask(static_cast<size_t>(geometry.n_voxels()), 0.0f);
+    for (size_t v = 0; v < subject.voxels.size(); ++v) {
+      if (subject.valid[v]) mask[static_cast<size_t>(subject.voxels[v])] = 1.0f;
+    }
+    WriteImage(stage->PathFor("mask.nii.gz"), geometry, mask);
+  } else {
+    WriteRegionTables(tables, /*with_ar1=*/false, "", stage);
+  }
+  WriteFileAtomically(stage->PathFor("summary.json"), SummaryJson(spec, subject));
+}
+
+}  // namespace boldsum
