@@ -135,9 +135,9 @@ NumericTable ReadNumericTable(const std::string& path, bool allow_na) {
                     "column '" + table.header[static_cast<size_t>(c)] +
                         "': 'n/a' is not allowed in this table; every cell must be a number");
       } else {
-        throw Error(table.CellLocation(r, c),
-                    "column '" + table.header[static_cast<size_t>(c)] +
-                        "': expected a finite number, got '" + cell + "'");
+        throw Error(table.CellLocation(r, c), "column '" + table.header[static_cast<size_t>(c)] +
+                                                  "': expected a finite number, got '" + cell +
+                                                  "'");
       }
     }
   }

@@ -1,0 +1,88 @@
+// LoadConfig: parse the YAML text, then read each section through the located readers.
+// Every problem becomes a diagnostic; nothing is written to disk.
+#include <filesystem>
+#include <fstream>
+#include <sstream>
+
+#include "boldsum/config.h"
+#include "config/readers.h"
+
+namespace boldsum {
+
+namespace fs = std::filesystem;
+using config::Field;
+
+namespace {
+
+constexpr long long kConfigVersion = 1;
+
+void ReadStudy(config::YamlReader& reader, const YAML::Node& document, StudySpec* spec) {
+  const Field root{"", YAML::Node(), document};
+  const auto top = reader.Fields(root, config::TopKeys());
+  if (!top) return;
+  auto find = [&](const char* name) -> const Field* {
+    const auto it = top->find(name);
+    return it == top->end() ? nullptr : &it->second;
+  };
+  if (const Field* f = find("version")) {
+    const auto version = reader.Integer(*f, "a whole number");
+    if (version && *version != kConfigVersion) {
+      reader.Error(*f, "unsupported version " + f->value.Scalar() +
+                           "; this boldsum reads version " + std::to_string(kConfigVersion));
+    }
+  }
+  const config::ModelState state = config::ReadModel(reader, *top, &spec->model);
+  if (const Field* f = find("mask")) {
+    if (auto path = reader.ExistingFile(*f, "a path to a mask image")) {
+      spec->mask_path = path->absolute;
+    }
+  }
+  spec->output_dir = reader.Resolve("results").absolute;
+  if (const Field* f = find("output")) {
+    if (auto text = reader.Text(*f, "a folder path"))
+      spec->output_dir = reader.Resolve(*text).absolute;
+  }
+  if (const Field* f = find("contrasts")) {
+    spec->contrasts = config::ReadContrasts(reader, *f, spec->model, state);
+  }
+  if (const Field* f = find("subjects")) {
+    spec->subjects = config::ReadSubjects(reader, *f, spec->model, state);
+  }
+}
+
+}  // namespace
+
+LoadedConfig LoadConfig(const std::string& path) {
+  LoadedConfig loaded;
+  config::Reporter reporter;
+  const fs::path absolute = fs::absolute(fs::path(path)).lexically_normal();
+  loaded.spec.config_path = absolute.string();
+  loaded.spec.config_dir = absolute.parent_path().string();
+  config::YamlReader reader(path, loaded.spec.config_dir, &reporter);
+
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream text;
+  if (in) text << in.rdbuf();
+  if (!in || fs::is_directory(absolute)) {
+    reader.Error(SourceLocation{path, 0, 0}, "cannot read the config file");
+    loaded.diagnostics = reporter.Sorted();
+    return loaded;
+  }
+  try {
+    const YAML::Node document = YAML::Load(text.str());
+    if (!document.IsDefined() || document.IsNull()) {
+      reader.Error(SourceLocation{path, 0, 0},
+                   "the config is empty; it needs at least tr, conditions and subjects");
+    } else {
+      ReadStudy(reader, document, &loaded.spec);
+    }
+  } catch (const YAML::Exception& error) {
+    // Syntax errors, and any conversion yaml-cpp rejects that the readers did not catch.
+    const SourceLocation where{path, error.mark.line + 1, error.mark.column + 1};
+    reader.Error(where, "YAML syntax error: " + error.msg);
+  }
+  loaded.diagnostics = reporter.Sorted();
+  return loaded;
+}
+
+}  // namespace boldsum
