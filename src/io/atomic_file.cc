@@ -1,0 +1,105 @@
+#include "io/atomic_file.h"
+
+#include <fcntl.h>
+#include <unistd.h>
+
+#include <atomic>
+#include <cerrno>
+#include <cstdio>
+#include <cstdlib>
+#include <cstring>
+#include <random>
+
+#include "boldsum/error.h"
+#include "boldsum/io.h"
+
+namespace boldsum {
+namespace {
+
+std::string Reason() { return std::strerror(errno); }
+
+void SyncDescriptorOf(const std::string& name, int flags, const std::string& path) {
+  const int fd = ::open(name.c_str(), flags | O_CLOEXEC);
+  if (fd < 0) throw Error(path + ": cannot open " + name + " to flush it (" + Reason() + ")");
+  const int result = ::fsync(fd);
+  const std::string reason = Reason();
+  ::close(fd);
+  // Some file systems cannot flush a folder; only the file's own flush must succeed.
+  if (result != 0 && (flags & O_DIRECTORY) == 0) {
+    throw Error(path + ": cannot flush " + name + " to disk (" + reason + ")");
+  }
+}
+
+}  // namespace
+
+std::string FolderOf(const std::string& path) {
+  const size_t slash = path.find_last_of('/');
+  if (slash == std::string::npos) return ".";
+  if (slash == 0) return "/";
+  return path.substr(0, slash);
+}
+
+TempFile::TempFile(const std::string& path, const std::string& suffix) : path_(path) {
+  const size_t slash = path.find_last_of('/');
+  std::string base = slash == std::string::npos ? path : path.substr(slash + 1);
+  if (base.size() >= suffix.size() &&
+      base.compare(base.size() - suffix.size(), suffix.size(), suffix) == 0) {
+    base.resize(base.size() - suffix.size());
+  }
+  const std::string folder = FolderOf(path);
+  const std::string prefix =
+      (slash == std::string::npos ? std::string() : path.substr(0, slash + 1)) + "." + base +
+      ".tmp-";
+  // O_EXCL with a fresh name per attempt: mode 0666 less the umask, like any new file
+  // (mkstemp would give 0600).
+  static std::atomic<unsigned> counter{0};
+  static const unsigned seed = std::random_device{}();
+  for (int attempt = 0; attempt < 100; ++attempt) {
+    char tag[32];
+    std::snprintf(tag, sizeof tag, "%d-%08x", static_cast<int>(::getpid()),
+                  seed ^ (counter.fetch_add(1) * 2654435761u));
+    name_ = prefix + tag + suffix;
+    fd_ = ::open(name_.c_str(), O_WRONLY | O_CREAT | O_EXCL | O_CLOEXEC, 0666);
+    if (fd_ >= 0) return;
+    if (errno != EEXIST) break;
+  }
+  const std::string reason = Reason();
+  name_.clear();
+  throw Error(path + ": cannot create a temporary file in " + folder + " (" + reason + ")");
+}
+
+TempFile::~TempFile() {
+  CloseDescriptor();
+  if (!committed_ && !name_.empty()) ::unlink(name_.c_str());
+}
+
+void TempFile::CloseDescriptor() {
+  if (fd_ >= 0) ::close(fd_);
+  fd_ = -1;
+}
+
+void TempFile::Commit() {
+  CloseDescriptor();
+  SyncDescriptorOf(name_, O_RDONLY, path_);
+  if (std::rename(name_.c_str(), path_.c_str()) != 0) {
+    throw Error(path_ + ": cannot rename " + name_ + " to it (" + Reason() + ")");
+  }
+  committed_ = true;
+  SyncDescriptorOf(FolderOf(path_), O_RDONLY | O_DIRECTORY, path_);
+}
+
+void WriteFileAtomically(const std::string& path, const std::string& contents) {
+  TempFile temp(path, "");
+  size_t written = 0;
+  while (written < contents.size()) {
+    const ssize_t n = ::write(temp.fd(), contents.data() + written, contents.size() - written);
+    if (n < 0) {
+      if (errno == EINTR) continue;
+      throw Error(path + ": write error (" + Reason() + ")");
+    }
+    written += static_cast<size_t>(n);
+  }
+  temp.Commit();
+}
+
+}  // namespace boldsum

@@ -1,0 +1,53 @@
+// Internal: sequential reading of a file's bytes from an offset, inflating gzip on the
+// fly, with bounded memory.
+#pragma once
+
+#include <zlib.h>
+
+#include <cstddef>
+#include <cstdint>
+#include <string>
+#include <vector>
+
+namespace boldsum {
+
+class ByteSource {
+ public:
+  // Files that start with the gzip magic bytes (1f 8b) are inflated, one member after
+  // another as `gzip -dc` does; any other file is read as is. `offset` counts
+  // uncompressed bytes. `buffer_bytes` is the size of the compressed-input buffer.
+  // Throws Error("<path>: ...") when the file cannot be opened or is shorter than
+  // `offset`.
+  ByteSource(const std::string& path, int64_t offset, size_t buffer_bytes = size_t{1} << 20);
+  ~ByteSource();
+  ByteSource(const ByteSource&) = delete;
+  ByteSource& operator=(const ByteSource&) = delete;
+
+  bool IsCompressed() const { return compressed_; }
+
+  // Reads up to `n` bytes into `dst`; returns the number read, which is less than `n`
+  // only when the data ends. Throws Error("<path>: ...") on a read error or corrupt
+  // gzip data.
+  size_t Read(void* dst, size_t n);
+
+  // For gzip, reads on to the end of the last member so that its CRC-32 and length are
+  // checked (RFC 1952); throws Error when they do not match or the trailer is missing.
+  // Nothing to do for an uncompressed file.
+  void CheckToEnd();
+
+ private:
+  bool Refill();  // false at the end of the file
+  bool StartNextMember();  // after a member's end: true when another member follows
+  void Skip(int64_t n);
+
+  std::string path_;
+  int fd_ = -1;
+  bool compressed_ = false;
+  bool input_done_ = false;   // the file has been read to its end
+  bool stream_done_ = false;  // the last gzip member ended
+  std::vector<unsigned char> in_;
+  z_stream zs_{};
+  bool zs_ready_ = false;
+};
+
+}  // namespace boldsum
