@@ -41,7 +41,14 @@ void CheckConfoundsHeader(YamlReader& reader, const ResolvedPath& path,
   if (model.censor) needed.emplace_back(model.censor->column, "censor.column");
   for (const auto& [column, source] : needed) {
     if (table.ColumnIndex(column) >= 0) continue;
-    const std::string near = ClosestMatch(column, table.header);
+    // Suggest only columns the model does not already take.
+    std::vector<std::string> unused;
+    for (const std::string& name : table.header) {
+      const bool taken = std::any_of(needed.begin(), needed.end(),
+                                     [&](const auto& need) { return need.first == name; });
+      if (!taken) unused.push_back(name);
+    }
+    const std::string near = ClosestMatch(column, unused);
     reporter.Add(Severity::kError, SourceLocation{table.path, 1, 0},
                  "column '" + column + "' (from " + source + ") is not in the header" +
                      (near.empty() ? "" : " (did you mean '" + near + "'?)"),
