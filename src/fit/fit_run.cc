@@ -1,0 +1,150 @@
+// FitRun: OLS, bias-corrected AR(1) and exact Prais-Winsten GLS per voxel, all from the
+// sufficient statistics of fit/sufficient_stats.h.
+#include <algorithm>
+#include <cmath>
+#include <limits>
+#include <string>
+
+#include "boldsum/error.h"
+#include "boldsum/fit.h"
+#include "fit/design_basis.h"
+#include "fit/parallel.h"
+#include "fit/sufficient_stats.h"
+
+namespace boldsum {
+
+namespace {
+
+constexpr double kNaN = std::numeric_limits<double>::quiet_NaN();
+constexpr double kRhoLimit = 0.99;
+
+// A voxel has zero residual variance when its OLS residual sum of squares is at most
+// this times N times y'y (y after the offset): the rounding error of e'e = y'y - b'X'y
+// is of order N eps y'y, so anything below is indistinguishable from an exact fit.
+constexpr double kZeroResidual = 1e3 * std::numeric_limits<double>::epsilon();
+
+// rho = gamma_1 / gamma_0 from the bias-corrected system m gamma = (e'e, e'De), clamped
+// to [-0.99, 0.99]. When gamma_0 <= 0 (lag-1 sum beyond what any covariance of that form
+// explains) rho is the limit with the sign of gamma_1.
+double BiasCorrectedRho(const Eigen::Matrix2d& m_inverse, double s0, double s1) {
+  const double g0 = m_inverse(0, 0) * s0 + m_inverse(0, 1) * s1;
+  const double g1 = m_inverse(1, 0) * s0 + m_inverse(1, 1) * s1;
+  if (!(g0 > 0)) return g1 > 0 ? kRhoLimit : (g1 < 0 ? -kRhoLimit : 0.0);
+  return std::clamp(g1 / g0, -kRhoLimit, kRhoLimit);
+}
+
+}  // namespace
+
+RunFit FitRun(const Eigen::MatrixXd& x, BlockSource* data, const FitOptions& options) {
+  if (options.threads < 1) {
+    throw Error("FitOptions::threads = " + std::to_string(options.threads) +
+                "; it must be at least 1");
+  }
+  if (data == nullptr) throw Error("FitRun: no data source");
+  if (x.rows() != data->n_volumes()) {
+    throw Error("design matrix has " + std::to_string(x.rows()) + " rows but the data has " +
+                std::to_string(data->n_volumes()) + " volumes");
+  }
+  const fit::DesignBasis basis = fit::AnalyseDesign(x);
+  const bool ar1 = options.noise == NoiseModel::kAr1;
+  const double det = basis.m.determinant();
+  if (ar1 && !(std::abs(det) > 1e-10 * basis.m(0, 0) * basis.m(1, 1))) {
+    throw Error("design leaves " + std::to_string(basis.n - basis.rank) +
+                " residual degrees of freedom, too few to estimate AR(1) noise; "
+                "use noise: none or more volumes");
+  }
+  const Eigen::Matrix2d m_inverse = basis.m.inverse();
+  const fit::SufficientStats s = fit::AccumulateStats(basis, data, options.threads);
+
+  const Eigen::Index n_vox = s.yy.size();
+  const Eigen::Index r = basis.rank;
+  const double dof = static_cast<double>(basis.n - basis.rank);
+  RunFit out;
+  out.n_volumes = basis.n;
+  out.rank = basis.rank;
+  out.dof = basis.n - basis.rank;
+  out.kept_columns = basis.kept;
+  out.gram = basis.gram;
+  out.beta = Eigen::MatrixXd::Zero(basis.p, n_vox);
+  out.sigma2 = Eigen::VectorXd::Constant(n_vox, kNaN);
+  out.rho = Eigen::VectorXd::Constant(n_vox, kNaN);
+  // 0 valid, 1 fitted, 2 non-finite, 3 zero residual variance; reduced to counts below.
+  std::vector<unsigned char> state(static_cast<size_t>(n_vox), 0);
+
+  fit::ForEachChunk(n_vox, options.threads, [&](Eigen::Index v0, Eigen::Index v1) {
+    const Eigen::Index w = v1 - v0;
+    const auto xty = s.g.block(0, v0, r, w);
+    const auto xdy = s.g.block(r, v0, r, w);
+    const Eigen::MatrixXd b_ols = basis.ols.solve(xty);
+    const Eigen::MatrixXd xdx_b = basis.kept_gram.lag * b_ols;
+    Eigen::MatrixXd a(r, r);
+    Eigen::VectorXd coef(r);
+    for (Eigen::Index j = 0; j < w; ++j) {
+      const Eigen::Index v = v0 + j;
+      const double yy = s.yy(v);
+      unsigned char& st = state[static_cast<size_t>(v)];
+      if (!std::isfinite(yy) || !std::isfinite(s.offset(v)) || !std::isfinite(s.ydy(v))) {
+        st = 2;
+        out.beta.col(v).setConstant(kNaN);
+        continue;
+      }
+      // OLS residual sums: e'e = y'y - b'X'y, e'De = y'Dy - 2 b'X'Dy + b'X'DX b.
+      const double s0 = yy - b_ols.col(j).dot(xty.col(j));
+      if (!(s0 > kZeroResidual * static_cast<double>(basis.n) * yy)) {
+        st = 3;
+        out.beta.col(v).setConstant(kNaN);
+        continue;
+      }
+      double rho = 0.0;
+      double rss = s0;
+      if (ar1) {
+        const double s1 =
+            s.ydy(v) - 2.0 * b_ols.col(j).dot(xdy.col(j)) + b_ols.col(j).dot(xdx_b.col(j));
+        rho = BiasCorrectedRho(m_inverse, s0, s1);
+        // X'V^-1 y and y'V^-1 y by the Prais-Winsten identity; then with A = LL',
+        // c = L^-1 X'V^-1 y: beta = L^-T c and whitened RSS = y'V^-1 y - c'c.
+        const double c0 = 1.0 + rho * rho;
+        const double c2 = rho * rho;
+        const double y0 = s.first(v);
+        const double yn = s.last(v);
+        fit::WhitenedGram(basis.kept_gram, rho, &a);
+        coef.noalias() = c0 * xty.col(j) - rho * xdy.col(j) -
+                         c2 * (y0 * basis.first_k + yn * basis.last_k);
+        const double yvy = c0 * yy - rho * s.ydy(v) - c2 * (y0 * y0 + yn * yn);
+        Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(a);
+        if (llt.info() != Eigen::Success) {
+          st = 3;
+          out.beta.col(v).setConstant(kNaN);
+          continue;
+        }
+        llt.matrixL().solveInPlace(coef);
+        rss = yvy - coef.squaredNorm();
+        llt.matrixU().solveInPlace(coef);
+        if (!(rss > 0)) {
+          st = 3;
+          out.beta.col(v).setConstant(kNaN);
+          continue;
+        }
+      } else {
+        coef = b_ols.col(j);
+      }
+      for (Eigen::Index i = 0; i < r; ++i) {
+        out.beta(basis.kept[i], v) = coef(i) + s.offset(v) * basis.constant_k(i);
+      }
+      out.rho(v) = rho;
+      out.sigma2(v) = rss / dof;
+      st = 1;
+    }
+  });
+
+  out.valid.assign(static_cast<size_t>(n_vox), 0);
+  for (Eigen::Index v = 0; v < n_vox; ++v) {
+    const unsigned char st = state[static_cast<size_t>(v)];
+    out.valid[static_cast<size_t>(v)] = st == 1;
+    out.n_nonfinite += st == 2;
+    out.n_constant += st == 3;
+  }
+  return out;
+}
+
+}  // namespace boldsum
