@@ -2,6 +2,8 @@
 #include <sys/stat.h>
 
 #include <algorithm>
+#include <cerrno>
+#include <cstring>
 #include <cstdio>
 #include <memory>
 
@@ -71,6 +73,7 @@ void WriteToTemporary(const std::string& path, const std::string& file, bool gzi
   znzFile out = nifti_image_write_hdr_img2(nim.get(), 2, gzip ? "wb1" : "wb", nullptr, nullptr);
   if (znz_isnull(out)) throw Error(path + ": cannot write the NIfTI header to " + file);
   const size_t total = values.size() * sizeof(float);
+  errno = 0;
   const char* bytes = reinterpret_cast<const char*>(values.data());
   size_t written = 0;
   while (written < total) {
@@ -79,9 +82,12 @@ void WriteToTemporary(const std::string& path, const std::string& file, bool gzi
     if (n != chunk) break;
     written += n;
   }
+  int saved_errno = written < total ? errno : 0;
   const int closed = znzclose(out);
+  if (saved_errno == 0 && closed != 0) saved_errno = errno;
   if (written < total || closed != 0) {
-    throw Error(path + ": write error in " + file + " (disk full?)");
+    throw Error(path + ": write error (" +
+                (saved_errno != 0 ? std::strerror(saved_errno) : "unknown reason") + ")");
   }
 }
 

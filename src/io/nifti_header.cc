@@ -1,5 +1,7 @@
 #include "io/nifti_header.h"
 
+#include "io/byte_source.h"
+
 #include <nifti2_io.h>
 
 #include <cerrno>
@@ -43,6 +45,21 @@ int CheckedInt(const std::string& path, const char* what, int64_t value) {
   return static_cast<int>(value);
 }
 
+// Called when nifticlib cannot read a header: throws the gzip error when the file is a
+// damaged gzip stream that starts like a NIfTI header, and "not a NIfTI file" otherwise.
+[[noreturn]] void ExplainUnreadableHeader(const std::string& path) {
+  ByteSource source(path, 0);
+  unsigned char start[4] = {0, 0, 0, 0};
+  source.Read(start, sizeof start);
+  int32_t size;
+  std::memcpy(&size, start, sizeof size);
+  const int32_t swapped = static_cast<int32_t>(__builtin_bswap32(static_cast<uint32_t>(size)));
+  if (source.IsCompressed() && (size == 348 || size == 540 || swapped == 348 || swapped == 540)) {
+    source.CheckToEnd();
+  }
+  throw Error(path + ": not a NIfTI file");
+}
+
 }  // namespace
 
 std::string DatatypeName(int code) {
@@ -79,9 +96,7 @@ NiftiLayout ReadNiftiLayout(const std::string& path) {
   int version = 0;
   void* raw_header = nifti_read_header(path.c_str(), &version, 1);
   std::free(raw_header);
-  if (raw_header == nullptr || (version != 1 && version != 2)) {
-    throw Error(path + ": not a NIfTI file");
-  }
+  if (raw_header == nullptr || (version != 1 && version != 2)) ExplainUnreadableHeader(path);
   std::unique_ptr<nifti_image, NimDeleter> nim(nifti_image_read(path.c_str(), 0));
   if (!nim || nim->nifti_type == NIFTI_FTYPE_ANALYZE || nim->nifti_type == NIFTI_FTYPE_ASCII) {
     throw Error(path + ": not a NIfTI file");
