@@ -362,6 +362,21 @@ TEST(ConfigErrors, ContrastProblems) {
           "'drift_cos1'; known: melody_known, melody_new, press"}));
 }
 
+// FIR bin columns exist up to the bin count: with tr 0.3 s and no fir_bins, 24 s / 0.3 s
+// = 80 bins (the division gives 80.00000000000001 in doubles, which must not become 81).
+TEST(ConfigErrors, FirBinKeysStopAtTheBinCount) {
+  StudyDir dir;
+  EXPECT_EQ(dir.LoadMessages("tr: 0.3\n"
+                             "hrf: {shape: fir}\n"
+                             "conditions: [melody_known, melody_new, press]\n"
+                             "contrasts:\n"
+                             "  late: {melody_known_bin80: 1, melody_known_bin81: 1, press: 1}\n" +
+                             kSubjects),
+            Messages{"D/study.yaml:5:33: error: contrasts.late: weight for unknown condition "
+                     "'melody_known_bin81' (did you mean 'melody_known_bin1'?); known: "
+                     "melody_known, melody_new, press"});
+}
+
 TEST(ConfigErrors, SubjectIds) {
   StudyDir dir;
   EXPECT_EQ(dir.LoadMessages("tr: 2\n"
