@@ -1,6 +1,7 @@
 #include <charconv>
 #include <cmath>
 #include <cstdio>
+#include <string>
 
 #include "boldsum/io.h"
 
@@ -86,10 +87,37 @@ std::string JsonQuote(const std::string& text) {
 
 std::string JsonNumber(double value) {
   if (!std::isfinite(value)) return "null";
-  // Shortest decimal that reads back to the same double (C++17 to_chars).
-  char buffer[32];
-  const auto result = std::to_chars(buffer, buffer + sizeof buffer, value);
-  return std::string(buffer, result.ptr);
+  // "-0" would read back as the integer 0 in many JSON readers (Python's among them).
+  if (value == 0 && std::signbit(value)) return "-0.0";
+  // The fewest significant digits that read back to the same double (C++17 to_chars,
+  // scientific form), laid out as Python's repr does: fixed notation for decimal
+  // exponents -4 to 15, otherwise d.ddde+XX; no ".0" after an integer.
+  char buffer[40];
+  const auto result =
+      std::to_chars(buffer, buffer + sizeof buffer, value, std::chars_format::scientific);
+  const std::string text(buffer, result.ptr);
+  const size_t e = text.find('e');
+  const bool negative = text[0] == '-';
+  std::string digits;
+  for (size_t i = negative ? 1 : 0; i < e; ++i) {
+    if (text[i] != '.') digits += text[i];
+  }
+  const int exponent = std::stoi(text.substr(e + 1));
+  std::string out = negative ? "-" : "";
+  if (exponent >= -4 && exponent < 16) {
+    if (exponent < 0) {
+      out += "0." + std::string(static_cast<size_t>(-exponent - 1), '0') + digits;
+    } else if (digits.size() <= static_cast<size_t>(exponent) + 1) {
+      out += digits + std::string(static_cast<size_t>(exponent) + 1 - digits.size(), '0');
+    } else {
+      out += digits.substr(0, static_cast<size_t>(exponent) + 1) + "." +
+             digits.substr(static_cast<size_t>(exponent) + 1);
+    }
+    return out;
+  }
+  out += digits.substr(0, 1);
+  if (digits.size() > 1) out += "." + digits.substr(1);
+  return out + text.substr(e);
 }
 
 }  // namespace boldsum

@@ -41,12 +41,16 @@ TEST(JsonQuote, Utf8) {
 
 TEST(JsonNumber, Forms) {
   EXPECT_EQ(JsonNumber(0.0), "0");
-  EXPECT_EQ(JsonNumber(-0.0), "-0");
+  EXPECT_EQ(JsonNumber(-0.0), "-0.0");  // "-0" reads back as the integer 0 in Python
   EXPECT_EQ(JsonNumber(0.1), "0.1");
   EXPECT_EQ(JsonNumber(-2.5), "-2.5");
   EXPECT_EQ(JsonNumber(100), "100");
   EXPECT_EQ(JsonNumber(1e21), "1e+21");
   EXPECT_EQ(JsonNumber(1.0 / 3), "0.3333333333333333");
+  EXPECT_EQ(JsonNumber(1e-5), "1e-05");   // Python's repr: scientific below 1e-4
+  EXPECT_EQ(JsonNumber(1e15), "1000000000000000");
+  EXPECT_EQ(JsonNumber(1e16), "1e+16");   // and from 1e16 up
+  EXPECT_EQ(JsonNumber(5.369532353602852e17), "5.369532353602852e+17");
   EXPECT_EQ(JsonNumber(5e-324), "5e-324");
   EXPECT_EQ(JsonNumber(std::numeric_limits<double>::max()), "1.7976931348623157e+308");
   EXPECT_EQ(JsonNumber(std::nan("")), "null");
