@@ -65,8 +65,8 @@ void WarnAboutEvents(const std::string& condition, const std::vector<Event>& eve
   warnings->AddWarning(run.where, message);
 }
 
-void AddTaskColumns(const ModelSpec& model, const RunSpec& run, int n_volumes,
-                    DesignMatrix* design, Diagnostics* warnings) {
+void AddTaskColumns(const ModelSpec& model, const RunSpec& run, int n_volumes, DesignMatrix* design,
+                    Diagnostics* warnings) {
   static const std::vector<Event> kNoEvents;
   for (const std::string& condition : model.conditions) {
     const auto found = run.events.find(condition);
@@ -78,8 +78,8 @@ void AddTaskColumns(const ModelSpec& model, const RunSpec& run, int n_volumes,
       if (model.hrf.shape == HrfShape::kFir) {
         values = FirRegressors(events, model.hrf, model.tr_s, model.slice_reference, n_volumes);
         for (int b = 1; b <= values.cols(); ++b) {
-          columns.push_back({condition + "_bin" + std::to_string(b), ColumnKind::kFirBin,
-                             condition});
+          columns.push_back(
+              {condition + "_bin" + std::to_string(b), ColumnKind::kFirBin, condition});
         }
       } else {
         values =
@@ -111,7 +111,8 @@ void AddConfoundColumns(const ModelSpec& model, const ConfoundTable& confounds, 
     }
   };
   if (!model.confounds.empty()) {
-    if (confounds.names != model.confounds || confounds.values.cols() != static_cast<Eigen::Index>(model.confounds.size())) {
+    if (confounds.names != model.confounds ||
+        confounds.values.cols() != static_cast<Eigen::Index>(model.confounds.size())) {
       throw Error(file, "the confounds table was not loaded for this model's confound columns");
     }
     check_rows(confounds.values.rows());
@@ -149,8 +150,7 @@ void AddDriftColumns(const ModelSpec& model, const RunSpec& run, int n_volumes,
     bool capped = false;
     const int count = CosineDriftCount(n_volumes, model.tr_s, model.drift.cutoff_s, &capped);
     if (capped && warnings != nullptr) {
-      warnings->AddWarning(run.where, "cosine drift cutoff " +
-                                          FormatSeconds(model.drift.cutoff_s) +
+      warnings->AddWarning(run.where, "cosine drift cutoff " + FormatSeconds(model.drift.cutoff_s) +
                                           " s asks for more regressors than the run's " +
                                           std::to_string(n_volumes) + " volumes allow; using " +
                                           std::to_string(count));
@@ -167,9 +167,9 @@ void AddDriftColumns(const ModelSpec& model, const RunSpec& run, int n_volumes,
     const int degree = std::min(model.drift.degree, n_volumes - 1);
     if (degree < model.drift.degree && warnings != nullptr) {
       warnings->AddWarning(run.where, "polynomial drift degree " +
-                                          std::to_string(model.drift.degree) +
-                                          " is too high for " + std::to_string(n_volumes) +
-                                          " volumes; using " + std::to_string(degree));
+                                          std::to_string(model.drift.degree) + " is too high for " +
+                                          std::to_string(n_volumes) + " volumes; using " +
+                                          std::to_string(degree));
     }
     values = LegendreDrift(n_volumes, degree);
     for (int d = 1; d <= degree; ++d) {
@@ -200,18 +200,19 @@ std::vector<std::string> DesignMatrix::names() const {
   return list;
 }
 
-DesignMatrix BuildDesign(const ModelSpec& model, const RunSpec& run,
-                         const ConfoundTable& confounds, int n_volumes, Diagnostics* warnings) {
+DesignMatrix BuildDesign(const ModelSpec& model, const RunSpec& run, const ConfoundTable& confounds,
+                         int n_volumes, Diagnostics* warnings) {
   if (n_volumes < 1) {
-    throw Error(run.where, "the run has " + std::to_string(n_volumes) + " volumes; need at least 1");
+    throw Error(run.where,
+                "the run has " + std::to_string(n_volumes) + " volumes; need at least 1");
   }
   if (!(model.tr_s > 0.0) || !std::isfinite(model.tr_s)) {
-    throw Error(run.where, "TR must be a positive number of seconds, got " +
-                               FormatSeconds(model.tr_s));
+    throw Error(run.where,
+                "TR must be a positive number of seconds, got " + FormatSeconds(model.tr_s));
   }
   if (!(model.slice_reference >= 0.0 && model.slice_reference <= 1.0)) {
-    throw Error(run.where, "slice_reference must lie in [0, 1], got " +
-                               FormatSeconds(model.slice_reference));
+    throw Error(run.where,
+                "slice_reference must lie in [0, 1], got " + FormatSeconds(model.slice_reference));
   }
   if (model.hrf.shape == HrfShape::kFir && model.hrf.derivatives != HrfDerivatives::kNone) {
     throw Error(run.where, "HRF derivatives cannot be combined with the FIR basis");

@@ -31,8 +31,8 @@ int FindColumn(const NumericTable& table, const std::string& name, const std::st
   }
   std::string message = "no column '" + name + "' (" + role + ")";
   const std::string guess = ClosestMatch(name, table.names);
-  if (!guess.empty()) message += "; did you mean '" + guess + "'?";
-  message += " Columns: " + JoinNames(table.names);
+  message += guess.empty() ? "." : "; did you mean '" + guess + "'?";
+  message += " The table's columns: " + JoinNames(table.names);
   throw Error(SourceLocation{table.path, 1, 0}, message);
 }
 
@@ -44,7 +44,8 @@ ConfoundTable LoadConfounds(const ModelSpec& model, const RunSpec& run) {
   confounds.names = model.confounds;
   if (model.confounds.empty() && !model.censor) return confounds;
   if (run.confounds_path.empty()) {
-    std::string needs = model.confounds.empty() ? "" : "confounds (" + JoinNames(model.confounds) + ")";
+    std::string needs =
+        model.confounds.empty() ? "" : "confounds (" + JoinNames(model.confounds) + ")";
     if (model.censor) {
       needs += (needs.empty() ? "" : " and ") + std::string("censoring by column '") +
                model.censor->column + "'";
@@ -67,8 +68,8 @@ ConfoundTable LoadConfounds(const ModelSpec& model, const RunSpec& run) {
     }
     if (rows > 0 && numeric == 0) {
       throw Error(SourceLocation{table.path, 1, HeaderColumn(table.names, c)},
-                  "confound column '" + model.confounds[m] +
-                      "' has no numeric cell (all " + std::to_string(rows) +
+                  "confound column '" + model.confounds[m] + "' has no numeric cell (all " +
+                      std::to_string(rows) +
                       " are n/a); n/a cells are replaced by the column mean, which needs at "
                       "least one number");
     }

@@ -169,16 +169,14 @@ DesignReport DescribeDesign(const DesignMatrix& design, const ModelSpec& model,
 
   // (X'X)^+ = V_r S_r^-2 V_r', so trace(C (X'X)^+ C') = || C V_r S_r^-1 ||_F^2.
   const Eigen::MatrixXd row_space = spectrum.v.leftCols(spectrum.rank);
-  const Eigen::VectorXd inverse_singular =
-      spectrum.singular.head(spectrum.rank).cwiseInverse();
+  const Eigen::VectorXd inverse_singular = spectrum.singular.head(spectrum.rank).cwiseInverse();
   for (const ContrastSpec& contrast : contrasts) {
     DesignReport::PerContrast entry;
     entry.contrast = contrast.name;
     const Eigen::MatrixXd c = ContrastWeights(contrast, design);
     entry.estimable = IsEstimable(x, c);
     if (entry.estimable) {
-      const double trace =
-          ((c * row_space) * inverse_singular.asDiagonal()).squaredNorm();
+      const double trace = ((c * row_space) * inverse_singular.asDiagonal()).squaredNorm();
       entry.efficiency = trace > 0.0 ? 1.0 / trace : kInfinity;
     }
     report.contrasts.push_back(entry);

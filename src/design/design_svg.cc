@@ -31,12 +31,23 @@ std::string EscapeXml(const std::string& text) {
   std::string escaped;
   for (char ch : text) {
     switch (ch) {
-      case '&': escaped += "&amp;"; break;
-      case '<': escaped += "&lt;"; break;
-      case '>': escaped += "&gt;"; break;
-      case '"': escaped += "&quot;"; break;
-      case '\'': escaped += "&apos;"; break;
-      default: escaped += ch;
+      case '&':
+        escaped += "&amp;";
+        break;
+      case '<':
+        escaped += "&lt;";
+        break;
+      case '>':
+        escaped += "&gt;";
+        break;
+      case '"':
+        escaped += "&quot;";
+        break;
+      case '\'':
+        escaped += "&apos;";
+        break;
+      default:
+        escaped += ch;
     }
   }
   return escaped;
@@ -51,8 +62,8 @@ std::vector<int> GreyLevels(const DesignMatrix& design, int c, int display_rows)
   std::vector<int> levels(static_cast<size_t>(display_rows));
   for (int i = 0; i < display_rows; ++i) {
     const int from = static_cast<int>(static_cast<long long>(i) * n / display_rows);
-    const int to = std::max(from + 1, static_cast<int>(static_cast<long long>(i + 1) * n /
-                                                       display_rows));
+    const int to =
+        std::max(from + 1, static_cast<int>(static_cast<long long>(i + 1) * n / display_rows));
     const double mean = column.segment(from, to - from).mean();
     double fraction = 0.0;
     if (high > low) {
@@ -116,6 +127,12 @@ std::string DesignToSvg(const DesignMatrix& design, const std::string& title) {
       start = end;
     }
   }
+  for (int c = 1; c < p; ++c) {  // thin separators, so equal neighbours stay apart
+    const double x = kLeftMargin + c * cell_width;
+    svg += "<line x1=\"" + Number(x) + "\" y1=\"" + Number(top) + "\" x2=\"" + Number(x) +
+           "\" y2=\"" + Number(top + kPlotHeight) +
+           "\" stroke=\"#808080\" stroke-width=\"0.5\"/>\n";
+  }
   svg += "</g>\n";
   svg += "<rect x=\"" + Number(kLeftMargin) + "\" y=\"" + Number(top) + "\" width=\"" +
          Number(p * cell_width) + "\" height=\"" + Number(kPlotHeight) +
@@ -125,8 +142,7 @@ std::string DesignToSvg(const DesignMatrix& design, const std::string& title) {
     const double x = kLeftMargin + (c + 0.5) * cell_width + 3.0;
     const double y = top - 4.0;
     svg += "<text x=\"" + Number(x) + "\" y=\"" + Number(y) + "\" transform=\"rotate(-60 " +
-           Number(x) + " " + Number(y) + ")\">" + EscapeXml(design.columns[c].name) +
-           "</text>\n";
+           Number(x) + " " + Number(y) + ")\">" + EscapeXml(design.columns[c].name) + "</text>\n";
   }
 
   // Volume axis: tick v marks the top edge of volume v.
@@ -139,8 +155,9 @@ std::string DesignToSvg(const DesignMatrix& design, const std::string& title) {
            "\" text-anchor=\"end\">" + std::to_string(v) + "</text>\n";
   }
   const double middle = top + kPlotHeight / 2.0;
-  svg += "<text x=\"16\" y=\"" + Number(middle) + "\" text-anchor=\"middle\" transform=\"rotate(-90 16 " +
-         Number(middle) + ")\">volume</text>\n";
+  svg += "<text x=\"16\" y=\"" + Number(middle) +
+         "\" text-anchor=\"middle\" transform=\"rotate(-90 16 " + Number(middle) +
+         ")\">volume</text>\n";
   svg += "</svg>\n";
   return svg;
 }

@@ -2,6 +2,7 @@
 
 #include <algorithm>
 #include <cmath>
+#include <cstdio>
 #include <string>
 
 #include "boldsum/error.h"
@@ -11,15 +12,21 @@
 namespace boldsum {
 namespace {
 
+std::string Format(double value) {
+  char text[32];
+  std::snprintf(text, sizeof text, "%.10g", value);
+  return text;
+}
+
 void CheckEvent(const Event& event) {
   if (!std::isfinite(event.onset_s) || !std::isfinite(event.duration_s) ||
       !std::isfinite(event.amplitude)) {
-    throw Error("event at onset " + std::to_string(event.onset_s) +
+    throw Error("event at onset " + Format(event.onset_s) +
                 " s: onset, duration and amplitude must be finite numbers");
   }
   if (event.duration_s < 0.0) {
-    throw Error("event at onset " + std::to_string(event.onset_s) + " s: duration " +
-                std::to_string(event.duration_s) + " s is negative");
+    throw Error("event at onset " + Format(event.onset_s) + " s: duration " +
+                Format(event.duration_s) + " s is negative");
   }
 }
 
@@ -27,7 +34,7 @@ void CheckEvent(const Event& event) {
 
 FineGrid ChooseFineGrid(double tr_s, double slice_reference) {
   if (!(tr_s > 0.0) || !std::isfinite(tr_s)) {
-    throw Error("TR must be a positive number of seconds, got " + std::to_string(tr_s));
+    throw Error("TR must be a positive number of seconds, got " + Format(tr_s));
   }
   FineGrid grid;
   grid.tr_s = tr_s;
@@ -91,10 +98,18 @@ Eigen::MatrixXd ConvolvedRegressors(const std::vector<Event>& events, const HrfS
   const int last = (n_volumes - 1) * grid.per_volume;
   const std::vector<double> weights = EventWeightsOnGrid(events, grid, first, last);
   const std::vector<std::vector<double>> convolved = ConvolveCausal(weights, kernels);
-  for (size_t c = 0; c < convolved.size(); ++c) {
-    for (int k = 0; k < n_volumes; ++k) {
-      columns(k, static_cast<int>(c)) =
-          convolved[c][static_cast<size_t>(k * grid.per_volume - first)];
+  // reached[i]: number of non-zero weights before index i. A volume whose kernel window
+  // holds none is exactly 0 (the FFT would leave ~1e-17 there).
+  std::vector<int> reached(weights.size() + 1, 0);
+  for (size_t i = 0; i < weights.size(); ++i) reached[i + 1] = reached[i] + (weights[i] != 0.0);
+  for (int k = 0; k < n_volumes; ++k) {
+    const int m = k * grid.per_volume - first;
+    if (reached[static_cast<size_t>(m) + 1] ==
+        reached[static_cast<size_t>(std::max(0, m - reach))]) {
+      continue;
+    }
+    for (size_t c = 0; c < convolved.size(); ++c) {
+      columns(k, static_cast<int>(c)) = convolved[c][static_cast<size_t>(m)];
     }
   }
   return columns;
@@ -106,12 +121,11 @@ double FirBinWidth(const HrfSpec& hrf, double tr_s) {
 
 int FirBinCount(const HrfSpec& hrf, double tr_s) {
   if (hrf.fir_bins > 0) return hrf.fir_bins;
-  return std::max(1, static_cast<int>(std::ceil(kFirDefaultSpanS / FirBinWidth(hrf, tr_s) -
-                                                1e-9)));
+  return std::max(1, static_cast<int>(std::ceil(kFirDefaultSpanS / FirBinWidth(hrf, tr_s) - 1e-9)));
 }
 
-Eigen::MatrixXd FirRegressors(const std::vector<Event>& events, const HrfSpec& hrf,
-                              double tr_s, double slice_reference, int n_volumes) {
+Eigen::MatrixXd FirRegressors(const std::vector<Event>& events, const HrfSpec& hrf, double tr_s,
+                              double slice_reference, int n_volumes) {
   const double width = FirBinWidth(hrf, tr_s);
   const int bins = FirBinCount(hrf, tr_s);
   if (!(width > 0.0) || !std::isfinite(width)) {

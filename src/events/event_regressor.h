@@ -41,8 +41,9 @@ std::vector<double> EventWeightsOnGrid(const std::vector<Event>& events, const F
                                        int first, int last);
 
 // Convolved regressors, n_volumes x (1 + derivatives): main, then time derivative, then
-// dispersion derivative (see events/hrf.h for their definitions). Exactly zero when
-// `events` is empty. REQUIRES: hrf.shape != kFir (throws Error), n_volumes >= 1.
+// dispersion derivative (see events/hrf.h for their definitions). Exactly zero at every
+// volume that no event can reach (none in the 32 s before it, e.g. before the first onset,
+// or when `events` is empty). REQUIRES: hrf.shape != kFir (throws Error), n_volumes >= 1.
 Eigen::MatrixXd ConvolvedRegressors(const std::vector<Event>& events, const HrfSpec& hrf,
                                     double tr_s, double slice_reference, int n_volumes);
 
@@ -56,7 +57,7 @@ inline constexpr double kFirDefaultSpanS = 24.0;
 // amplitudes of the events with t_k - onset in [b w, (b+1) w), i.e. b = floor((t_k - onset) / w
 // + 1e-9): the allowance of 1e-9 bin widths keeps onsets written on the volume grid in the
 // intended bin despite rounding. Durations are ignored.
-Eigen::MatrixXd FirRegressors(const std::vector<Event>& events, const HrfSpec& hrf,
-                              double tr_s, double slice_reference, int n_volumes);
+Eigen::MatrixXd FirRegressors(const std::vector<Event>& events, const HrfSpec& hrf, double tr_s,
+                              double slice_reference, int n_volumes);
 
 }  // namespace boldsum

@@ -103,8 +103,8 @@ std::vector<std::vector<double>> ConvolveCausal(const std::vector<double>& signa
     fft.Forward(kernels[k]);
     for (int b = 0; b < bins; ++b) {
       const std::complex<double> product =
-          std::complex<double>(fft.spectrum()[b][0], fft.spectrum()[b][1]) *
-          signal_spectrum[b] * unscale;
+          std::complex<double>(fft.spectrum()[b][0], fft.spectrum()[b][1]) * signal_spectrum[b] *
+          unscale;
       fft.spectrum()[b][0] = product.real();
       fft.spectrum()[b][1] = product.imag();
     }

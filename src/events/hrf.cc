@@ -92,8 +92,8 @@ SampledHrf SampleHrf(HrfShape shape, HrfDerivatives derivatives, double dt) {
     hrf.dispersion.resize(last + 1);
     for (int i = 0; i <= last; ++i) {
       const double t = i * dt;
-      hrf.dispersion[i] = (RawHrf(shape, t, kDispersionStepS) - RawHrf(shape, t)) /
-                          kDispersionStepS * normaliser;
+      hrf.dispersion[i] =
+          (RawHrf(shape, t, kDispersionStepS) - RawHrf(shape, t)) / kDispersionStepS * normaliser;
     }
   }
   return hrf;

@@ -21,8 +21,11 @@ HrfSpec Spec(HrfShape shape, HrfDerivatives derivatives = HrfDerivatives::kNone)
 
 TEST(ChooseFineGrid, SpacingAtMostTrOver16AndAtMostATenthOfASecond) {
   // The contract's rule: dt <= TR / 16 and dt <= 0.1 s, with t_k on the grid.
-  const struct { double tr; int per_volume; } cases[] = {
-      {2.0, 20}, {0.8, 16}, {2.5, 25}, {0.72, 16}, {3.0, 30}, {1.6, 16}, {1.7, 17}, {0.5, 16}};
+  const struct {
+    double tr;
+    int per_volume;
+  } cases[] = {{2.0, 20}, {0.8, 16}, {2.5, 25}, {0.72, 16},
+               {3.0, 30}, {1.6, 16}, {1.7, 17}, {0.5, 16}};
   for (const auto& c : cases) {
     const FineGrid grid = ChooseFineGrid(c.tr, 0.5);
     EXPECT_EQ(grid.per_volume, c.per_volume) << "TR = " << c.tr;
@@ -66,11 +69,12 @@ TEST(ConvolvedRegressors, ZeroDurationEventIsTheSampledHrf) {
   const double tr = 2.0;
   const FineGrid grid = ChooseFineGrid(tr, 0.5);
   const SampledHrf hrf = SampleHrf(HrfShape::kDoubleGamma, HrfDerivatives::kNone, grid.dt);
-  const Eigen::MatrixXd x =
-      ConvolvedRegressors({{1.0 + 3 * grid.dt, 0.0, 1.0}}, Spec(HrfShape::kDoubleGamma), tr, 0.5, 30);
+  const Eigen::MatrixXd x = ConvolvedRegressors({{1.0 + 3 * grid.dt, 0.0, 1.0}},
+                                                Spec(HrfShape::kDoubleGamma), tr, 0.5, 30);
   for (int k = 0; k < 30; ++k) {
     const int i = k * grid.per_volume - 3;
-    const double expected = (i >= 0 && i < static_cast<int>(hrf.main.size())) ? hrf.main[i] / grid.dt : 0.0;
+    const double expected =
+        (i >= 0 && i < static_cast<int>(hrf.main.size())) ? hrf.main[i] / grid.dt : 0.0;
     EXPECT_NEAR(x(k, 0), expected, 1e-14) << "volume " << k;
   }
 }
@@ -97,8 +101,10 @@ TEST(ConvolvedRegressors, MatchesDirectConvolutionOnLongRunsAndAtTheEnd) {
   const int n = 2000;
   const double end = (n - 1 + slice_reference) * tr;
   std::vector<Event> events;
-  for (int e = 0; e < 300; ++e) events.push_back({-20.0 + e * 13.37, 0.1 * (e % 7), 1.0 + 0.01 * e});
-  for (double onset : {end - 40.0, end - 0.05, end, end + 0.01}) events.push_back({onset, 2.0, 1.0});
+  for (int e = 0; e < 300; ++e)
+    events.push_back({-20.0 + e * 13.37, 0.1 * (e % 7), 1.0 + 0.01 * e});
+  for (double onset : {end - 40.0, end - 0.05, end, end + 0.01})
+    events.push_back({onset, 2.0, 1.0});
   events.push_back({end - 0.3, 0.0, 1.0});
   const HrfSpec spec = Spec(HrfShape::kGlover, HrfDerivatives::kTimeDispersion);
   const Eigen::MatrixXd x = ConvolvedRegressors(events, spec, tr, slice_reference, n);
@@ -122,9 +128,24 @@ TEST(ConvolvedRegressors, MatchesDirectConvolutionOnLongRunsAndAtTheEnd) {
   EXPECT_GT(std::abs(x(n - 1, 0)), 1e-3);  // the events near the end do show
 }
 
+TEST(ConvolvedRegressors, ExactZerosWhereNoEventReaches) {
+  // t_k = (k + 0.5) 2: volumes 0..9 lie before the onset at 20 s; from k = 26 (t = 53 s,
+  // lag 33 s > 32 s plus a grid step) the kernel has ended.
+  const Eigen::MatrixXd x = ConvolvedRegressors(
+      {{20.0, 0.0, 1.0}}, Spec(HrfShape::kDoubleGamma, HrfDerivatives::kTimeDispersion), 2.0, 0.5,
+      40);
+  for (int k = 0; k < 40; ++k) {
+    if (k <= 9 || k >= 26) {
+      EXPECT_EQ(x.row(k).cwiseAbs().maxCoeff(), 0.0) << k;
+    } else {
+      EXPECT_NE(x(k, 0), 0.0) << k;
+    }
+  }
+}
+
 TEST(ConvolvedRegressors, NoEventsGiveExactZeros) {
-  const Eigen::MatrixXd x = ConvolvedRegressors({}, Spec(HrfShape::kDoubleGamma,
-                                                         HrfDerivatives::kTime), 2.0, 0.5, 50);
+  const Eigen::MatrixXd x =
+      ConvolvedRegressors({}, Spec(HrfShape::kDoubleGamma, HrfDerivatives::kTime), 2.0, 0.5, 50);
   EXPECT_EQ(x.cols(), 2);
   EXPECT_EQ(x.cwiseAbs().maxCoeff(), 0.0);
   EXPECT_THROW(ConvolvedRegressors({}, Spec(HrfShape::kFir), 2.0, 0.5, 50), Error);
@@ -158,10 +179,10 @@ RC_GTEST_PROP(ConvolvedRegressors, ShiftingOnsetsByOneTrShiftsOneRow, ()) {
   const int n = 60;
   const HrfSpec spec = Spec(*rc::gen::element(HrfShape::kDoubleGamma, HrfShape::kGlover),
                             HrfDerivatives::kTimeDispersion);
-  const Eigen::MatrixXd a = ConvolvedRegressors({{onset, duration, 1.0}}, spec, tr,
-                                                slice_reference, n);
-  const Eigen::MatrixXd b = ConvolvedRegressors({{onset + tr, duration, 1.0}}, spec, tr,
-                                                slice_reference, n);
+  const Eigen::MatrixXd a =
+      ConvolvedRegressors({{onset, duration, 1.0}}, spec, tr, slice_reference, n);
+  const Eigen::MatrixXd b =
+      ConvolvedRegressors({{onset + tr, duration, 1.0}}, spec, tr, slice_reference, n);
   // Rounding of the grid coordinate moves mass by ~1e-13 of a cell; FFT noise ~1e-15.
   RC_ASSERT((b.bottomRows(n - 1) - a.topRows(n - 1)).cwiseAbs().maxCoeff() < 1e-9);
   RC_ASSERT(b.row(0).cwiseAbs().maxCoeff() < 1e-12 || onset < 32.0);

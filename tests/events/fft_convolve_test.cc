@@ -72,7 +72,8 @@ TEST(ConvolveCausal, SeveralKernelsAndThreadsGiveIdenticalResults) {
   std::vector<std::vector<std::vector<double>>> parallel(4);
   std::vector<std::thread> threads;
   for (auto& result : parallel) {
-    threads.emplace_back([&result, &signal, &kernels] { result = ConvolveCausal(signal, kernels); });
+    threads.emplace_back(
+        [&result, &signal, &kernels] { result = ConvolveCausal(signal, kernels); });
   }
   for (std::thread& thread : threads) thread.join();
   for (const auto& result : parallel) EXPECT_EQ(result, serial);  // bitwise
@@ -100,7 +101,8 @@ RC_GTEST_PROP(ConvolveCausal, IsLinearInTheSignal, ()) {
   for (double& x : scaled) x *= scale;
   const std::vector<double> a = ConvolveCausal(signal, {kernel})[0];
   const std::vector<double> b = ConvolveCausal(scaled, {kernel})[0];
-  for (int m = 0; m < n; ++m) RC_ASSERT(std::abs(b[m] - scale * a[m]) < 1e-11 * (1 + std::abs(scale)));
+  for (int m = 0; m < n; ++m)
+    RC_ASSERT(std::abs(b[m] - scale * a[m]) < 1e-11 * (1 + std::abs(scale)));
 }
 
 }  // namespace

@@ -72,8 +72,10 @@ TEST(SampleHrf, PeakAndUndershootTimes) {
   // Common practice: the canonical (double-gamma) response peaks about 5 s after onset
   // and undershoots near 15 s. Glover's undershoot lobe peaks at d2 = a2 b2 = 10.8 s, so the
   // sum dips a little later, near 12 s (from the formula; Glover 1999).
-  const struct { HrfShape shape; double dip_low, dip_high; } cases[] = {
-      {HrfShape::kDoubleGamma, 14.0, 16.5}, {HrfShape::kGlover, 11.0, 13.5}};
+  const struct {
+    HrfShape shape;
+    double dip_low, dip_high;
+  } cases[] = {{HrfShape::kDoubleGamma, 14.0, 16.5}, {HrfShape::kGlover, 11.0, 13.5}};
   for (const auto& c : cases) {
     const SampledHrf hrf = SampleHrf(c.shape, HrfDerivatives::kNone, 0.1);
     const auto peak = std::max_element(hrf.main.begin(), hrf.main.end()) - hrf.main.begin();
