@@ -3,7 +3,7 @@
 // Definitions:
 //   rank: number of singular values of X above max(N, p) * eps * sigma_max.
 //   condition_number: sigma_max / sigma_min of X with every non-zero column scaled to unit
-//     norm (infinite when p > N or sigma_min = 0).
+//     norm; infinite when X is rank-deficient (rank < p, which includes p > N).
 //   dependent: the p - rank null directions are taken as the right singular vectors of the
 //     column-scaled X with the smallest singular values; a column is named when its row of
 //     that basis has norm > 1e-6 (basis-independent, and free of the columns' units).
@@ -151,7 +151,7 @@ DesignReport DescribeDesign(const DesignMatrix& design, const ModelSpec& model,
   const Spectrum scaled = Decompose(ScaleColumns(x));
   if (p == 0) {
     report.condition_number = 0.0;
-  } else if (p > design.n_volumes() || scaled.singular(scaled.singular.size() - 1) == 0.0) {
+  } else if (spectrum.rank < p || scaled.singular(scaled.singular.size() - 1) == 0.0) {
     report.condition_number = kInfinity;
   } else {
     report.condition_number = scaled.singular(0) / scaled.singular(scaled.singular.size() - 1);

@@ -79,8 +79,8 @@ def raw_hrf_integral(shape, x, first_scale_shift=0.0):
 
 
 def fine_grid(tr):
-    """Grid points per TR: max(16, ceil(TR / 0.1 s)); spacing dt = TR / that."""
-    per_volume = max(16, int(math.ceil(tr / 0.1 * (1.0 - 1e-12))))
+    """Grid points per TR: max(16, ceil(TR / 0.05 s)); spacing dt = TR / that."""
+    per_volume = max(16, int(math.ceil(tr / 0.05 * (1.0 - 1e-12))))
     return per_volume, tr / per_volume
 
 
