@@ -19,6 +19,7 @@ struct ImageGeometry {
   int n_volumes = 1;                                // nt (1 for a 3D image)
   std::array<double, 3> voxel_mm = {1.0, 1.0, 1.0};
   double tr_s = 0.0;                                // pixdim[4] in seconds; 0 if unknown
+                                                    // (an unset time unit means seconds)
   int nifti_version = 1;                            // 1 or 2, from the file's header
   // Orientation, copied verbatim to outputs.
   int qform_code = 0, sform_code = 0;
@@ -33,6 +34,7 @@ struct ImageGeometry {
 
 // Reads only the header. Throws Error("<path>: ...") when the file is missing, not
 // NIfTI, or has a datatype other than uint8, int16, int32, float32 or float64.
+// Lengths in metres or microns are converted to mm.
 ImageGeometry ReadImageGeometry(const std::string& path);
 
 // A whole 3D image (or the first volume of a 4D one), scl_slope/scl_inter applied,
@@ -101,8 +103,11 @@ void WriteFileAtomically(const std::string& path, const std::string& contents);
 std::string FileSha256(const std::string& path);
 std::string Sha256(const std::string& bytes);
 
-// Minimal JSON text building for summary files.
+// Minimal JSON text building for summary files. JsonQuote escapes per RFC 8259 and
+// replaces ill-formed UTF-8 by U+FFFD, so its output is always valid JSON.
 std::string JsonQuote(const std::string& text);
-std::string JsonNumber(double value);  // shortest round-trip form; null for NaN/Inf
+// Shortest round-trip form, laid out as Python's repr ("0.1", "1e-05", "1e+16", "3"),
+// "-0.0" for negative zero; null for NaN/Inf.
+std::string JsonNumber(double value);
 
 }  // namespace boldsum
