@@ -1,5 +1,16 @@
 // FitRun: OLS, bias-corrected AR(1) and exact Prais-Winsten GLS per voxel, all from the
-// sufficient statistics of fit/sufficient_stats.h.
+// sufficient statistics of fit/sufficient_stats.h (one pass over the data).
+//
+// Per voxel, with X_k the kept columns (r of them), D = L + L' and y after the offset:
+// 1. OLS: b = (X_k'X_k)^-1 X_k'y; e'e = y'y - b'X_k'y; e'De = y'Dy - 2 b'X_k'Dy +
+//    b'X_k'DX_k b.
+// 2. AR(1), Worsley et al. (2002, NeuroImage 15:1-15): m (g0, g1)' = (e'e, e'De)' with
+//    m_jk = tr(R Dj R Dk), D0 = I, D1 = D (design_basis.h); rho = g1 / g0 in [-0.99, 0.99].
+// 3. GLS at rho (Prais & Winsten 1954, via <Wa, Wb> = (1 + rho^2) a'b - rho a'Db -
+//    rho^2 (a_0 b_0 + a_{N-1} b_{N-1})): A = X_k'V^-1 X_k, A = LL' (Cholesky),
+//    c = L^-1 X_k'V^-1 y, beta = L^-T c, whitened RSS = y'V^-1 y - c'c.
+// 4. sigma2 = RSS / (N - r), the innovation variance; noise: none uses rho = 0, RSS = e'e.
+// beta of the columns not kept is 0; the offset is added back as offset * a (X_k a = 1).
 #include <algorithm>
 #include <cmath>
 #include <limits>

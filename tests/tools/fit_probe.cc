@@ -61,6 +61,7 @@ int main(int argc, char** argv) {
       const std::string flag = argv[i];
       const std::string value = argv[i + 1];
       if (flag == "--noise") {
+        if (value != "none" && value != "ar1") throw boldsum::Error("--noise: ar1 or none");
         options.noise = value == "none" ? boldsum::NoiseModel::kNone : boldsum::NoiseModel::kAr1;
       } else if (flag == "--threads") {
         options.threads = std::stoi(value);
