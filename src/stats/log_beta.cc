@@ -84,7 +84,9 @@ BetaArgument BetaArgumentFromRatio(double r, double log_r) {
   arg.x = 1.0 / (1.0 + r);
   arg.y = r / (1.0 + r);
   arg.log_x = -std::log1p(r);
-  arg.log_y = r > 0 ? -std::log1p(1.0 / r) : -std::numeric_limits<double>::infinity();
+  // log y = log r - log1p(r); below r = 1 from log_r, which stays finite when r
+  // underflows (f ~ 1e-320 in an F lower tail).
+  arg.log_y = r >= 1.0 ? -std::log1p(1.0 / r) : log_r - std::log1p(r);
   return arg;
 }
 

@@ -16,8 +16,8 @@ struct BetaArgument {
 };
 
 // x = 1 / (1 + r), y = r / (1 + r) for r in [0, inf]. `log_r` must be log(r); it is
-// used where r overflows (pass it separately so that r = t^2 / dof may overflow while
-// log r = 2 log(t / sqrt(dof)) does not).
+// used where r overflows or underflows (pass it separately so that r = t^2 / dof may
+// overflow while log r = 2 log(t / sqrt(dof)) does not).
 BetaArgument BetaArgumentFromRatio(double r, double log_r);
 
 // log I_x(a, b), the regularised incomplete beta function, for a, b > 0. Made for the

@@ -77,6 +77,18 @@ TEST(ZFromT, InfiniteDofIsIdentity) {
   for (double t : {-40.0, -1.0, 0.0, 1e-300, 2.5, 1e3}) EXPECT_EQ(ZFromT(t, kInf), t);
 }
 
+// Arguments whose ratios underflow or overflow still give finite z (f = 1e-320 is
+// subnormal; t = 1e300 squared overflows).
+TEST(ZFromF, FiniteAtExtremeArguments) {
+  for (double f : {1e-320, 1e-300, 1e-150, 1e300}) {
+    for (double d1 : {1.0, 20.0}) {
+      EXPECT_TRUE(std::isfinite(ZFromF(f, d1, 30.0))) << "f = " << f << ", dof1 = " << d1;
+    }
+  }
+  EXPECT_LT(ZFromF(1e-320, 20.0, 30.0), ZFromF(1e-300, 20.0, 30.0));
+  EXPECT_TRUE(std::isfinite(ZFromT(1e300, 3.0)));
+}
+
 TEST(ZFromT, SpecialValues) {
   EXPECT_EQ(ZFromT(0.0, 5.0), 0.0);
   EXPECT_EQ(ZFromT(kInf, 5.0), kInf);
