@@ -105,8 +105,8 @@ std::optional<RunSpec> ReadRun(YamlReader& reader, const Field& field, const Mod
       run.events = *events;
       for (const std::string& condition : model.conditions) {
         if (run.events[condition].empty()) {
-          reader.Warning(reader.At(f->key), Prefixed(f->path, "no events for condition '" + condition +
-                                                              "' in this run"));
+          reader.Warning(reader.At(f->key), Prefixed(f->path, "no events for condition '" +
+                                                                  condition + "' in this run"));
         }
       }
     }

@@ -2,8 +2,8 @@
 //
 // Format: UTF-8 text, cells separated by single tabs, one header line then one line per
 // row; a trailing "\r" (CRLF files) is dropped; empty lines are allowed only at the end of
-// the file. Cells are kept verbatim (no trimming), so that CellLocation can give the
-// character column of a cell in the file.
+// the file; a UTF-8 byte-order mark before the header is dropped. Cells are kept verbatim (no
+// trimming), so that CellLocation can give the character column of a cell in the file.
 #include <charconv>
 #include <cmath>
 #include <fstream>
@@ -63,6 +63,7 @@ Table ReadTable(const std::string& path) {
   std::string line;
   while (std::getline(in, line)) {
     if (!line.empty() && line.back() == '\r') line.pop_back();
+    if (lines.empty() && line.rfind("\xEF\xBB\xBF", 0) == 0) line.erase(0, 3);  // UTF-8 BOM
     lines.push_back(line);
   }
   if (in.bad()) throw Error(SourceLocation{path, 0, 0}, "read error");

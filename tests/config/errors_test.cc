@@ -42,25 +42,25 @@ TEST(ConfigErrors, MissingAndEmptyConfigFiles) {
 
 TEST(ConfigErrors, UnknownKeysAtEveryLevelWithSuggestion) {
   StudyDir dir;
-  EXPECT_EQ(dir.LoadMessages("tr: 2\n"
-                             "drfit: {kind: cosine}\n"
-                             "hrf: {shap: glover}\n"
-                             "drift: {cutof_s: 100}\n"
-                             "censor: {column: displacement, abve: 0.5}\n"
-                             "conditions: [melody_known, melody_new, press]\n"
-                             "confounds: [shift_x]\n"
-                             "colour: blue\n"
-                             "subjects:\n"
-                             "  - id: s01\n"
-                             "    rnus: []\n"
-                             "    runs:\n"
-                             "      - data: run1.nii.gz\n"
-                             "        confound: run1_confounds.tsv\n"
-                             "        events:\n"
-                             "          press: [{onset: 1, duraton: 0}]\n"
-                             "          melody_known: {onset: [1, 2], duration: 3}\n"),
-            (Messages{
-                "D/study.yaml:2:1: error: unknown key 'drfit' (did you mean 'drift'?)",
+  EXPECT_EQ(
+      dir.LoadMessages("tr: 2\n"
+                       "drfit: {kind: cosine}\n"
+                       "hrf: {shap: glover}\n"
+                       "drift: {cutof_s: 100}\n"
+                       "censor: {column: displacement, abve: 0.5}\n"
+                       "conditions: [melody_known, melody_new, press]\n"
+                       "confounds: [shift_x]\n"
+                       "colour: blue\n"
+                       "subjects:\n"
+                       "  - id: s01\n"
+                       "    rnus: []\n"
+                       "    runs:\n"
+                       "      - data: run1.nii.gz\n"
+                       "        confound: run1_confounds.tsv\n"
+                       "        events:\n"
+                       "          press: [{onset: 1, duraton: 0}]\n"
+                       "          melody_known: {onset: [1, 2], duration: 3}\n"),
+      (Messages{"D/study.yaml:2:1: error: unknown key 'drfit' (did you mean 'drift'?)",
                 "D/study.yaml:3:7: error: hrf: unknown key 'shap' (did you mean 'shape'?)",
                 "D/study.yaml:4:9: error: drift: unknown key 'cutof_s' (did you mean 'cutoff_s'?)",
                 "D/study.yaml:5:9: error: censor: missing required key 'above'",
@@ -94,15 +94,15 @@ TEST(ConfigErrors, DuplicateKeys) {
 
 TEST(ConfigErrors, WrongTypes) {
   StudyDir dir;
-  EXPECT_EQ(dir.LoadMessages("tr: two\n"
-                             "slice_reference: [0.5]\n"
-                             "hrf: glover\n"
-                             "drift: {kind: polynomial, degree: 2.5}\n"
-                             "autocorrelation:\n"
-                             "conditions: melody_known\n"
-                             "subjects: {id: s01}\n"),
-            (Messages{
-                "D/study.yaml:1:5: error: tr: expected a number in seconds, got 'two'",
+  EXPECT_EQ(
+      dir.LoadMessages("tr: two\n"
+                       "slice_reference: [0.5]\n"
+                       "hrf: glover\n"
+                       "drift: {kind: polynomial, degree: 2.5}\n"
+                       "autocorrelation:\n"
+                       "conditions: melody_known\n"
+                       "subjects: {id: s01}\n"),
+      (Messages{"D/study.yaml:1:5: error: tr: expected a number in seconds, got 'two'",
                 "D/study.yaml:2:18: error: slice_reference: expected a number in [0, 1], got a "
                 "list",
                 "D/study.yaml:3:6: error: hrf: expected a mapping with keys shape, derivatives, "
@@ -118,14 +118,14 @@ TEST(ConfigErrors, WrongTypes) {
 
 TEST(ConfigErrors, UnknownWordsForEnumeratedSettings) {
   StudyDir dir;
-  EXPECT_EQ(dir.LoadMessages("tr: 2\n"
-                             "hrf: {shape: double-gama, derivatives: dispersion}\n"
-                             "drift: {kind: cosines}\n"
-                             "autocorrelation: ar2\n"
-                             "conditions: [melody_known, melody_new, press]\n" +
-                             kSubjects),
-            (Messages{
-                "D/study.yaml:2:14: error: hrf.shape: unknown value 'double-gama' (did you mean "
+  EXPECT_EQ(
+      dir.LoadMessages("tr: 2\n"
+                       "hrf: {shape: double-gama, derivatives: dispersion}\n"
+                       "drift: {kind: cosines}\n"
+                       "autocorrelation: ar2\n"
+                       "conditions: [melody_known, melody_new, press]\n" +
+                       kSubjects),
+      (Messages{"D/study.yaml:2:14: error: hrf.shape: unknown value 'double-gama' (did you mean "
                 "'double-gamma'?); expected one of: double-gamma, glover, fir",
                 "D/study.yaml:2:40: error: hrf.derivatives: unknown value 'dispersion'; expected "
                 "one of: none, time, time+dispersion",
@@ -164,13 +164,13 @@ TEST(ConfigErrors, OutOfRangeValues) {
 
 TEST(ConfigErrors, SettingsThatDoNotApplyToTheChosenKind) {
   StudyDir dir;
-  EXPECT_EQ(dir.LoadMessages("tr: 2\n"
-                             "hrf: {shape: fir, derivatives: time}\n"
-                             "drift: {kind: none, degree: 3, cutoff_s: 90}\n"
-                             "conditions: [melody_known, melody_new, press]\n" +
-                             kSubjects),
-            (Messages{
-                "D/study.yaml:2:32: error: hrf.derivatives: derivatives cannot be combined with "
+  EXPECT_EQ(
+      dir.LoadMessages("tr: 2\n"
+                       "hrf: {shape: fir, derivatives: time}\n"
+                       "drift: {kind: none, degree: 3, cutoff_s: 90}\n"
+                       "conditions: [melody_known, melody_new, press]\n" +
+                       kSubjects),
+      (Messages{"D/study.yaml:2:32: error: hrf.derivatives: derivatives cannot be combined with "
                 "shape fir (an FIR basis has no HRF to differentiate)",
                 "D/study.yaml:3:29: error: drift.degree: only used with kind polynomial (kind is "
                 "none)",
@@ -260,12 +260,13 @@ TEST(ConfigErrors, FirBinKeysStopAtTheBinCount) {
 
 TEST(ConfigErrors, ConditionNames) {
   StudyDir dir;
-  EXPECT_EQ(dir.LoadMessages("tr: 2\n"
-                             "hrf: {derivatives: time}\n"
-                             "conditions: [melody_known, melody_new, press, melody_known, intercept, press_dt]\n"
-                             "ignore: [press]\n"
-                             "confounds: [shift_x, melody_known_dt]\n" +
-                             kSubjects),
+  EXPECT_EQ(dir.LoadMessages(
+                "tr: 2\n"
+                "hrf: {derivatives: time}\n"
+                "conditions: [melody_known, melody_new, press, melody_known, intercept, press_dt]\n"
+                "ignore: [press]\n"
+                "confounds: [shift_x, melody_known_dt]\n" +
+                kSubjects),
             (Messages{"D/study.yaml:3:47: error: conditions[3]: 'melody_known' is listed twice "
                       "(first at line 3)",
                       "D/study.yaml:3:61: error: conditions[4]: 'intercept' is reserved for "

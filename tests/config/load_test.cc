@@ -45,8 +45,9 @@ TEST(LoadConfig, ExampleStudyLoadsWithItsValues) {
   ASSERT_EQ(spec.contrasts.size(), 2u);
   EXPECT_EQ(spec.contrasts[0].name, "known_vs_new");
   EXPECT_FALSE(spec.contrasts[0].is_f);
-  EXPECT_EQ(spec.contrasts[0].rows,
-            (std::vector<std::map<std::string, double>>{{{"melody_known", 1}, {"melody_new", -1}}}));
+  EXPECT_EQ(
+      spec.contrasts[0].rows,
+      (std::vector<std::map<std::string, double>>{{{"melody_known", 1}, {"melody_new", -1}}}));
   EXPECT_EQ(spec.contrasts[0].where.line, 13);
   EXPECT_EQ(spec.contrasts[0].where.column, 3);
   EXPECT_EQ(spec.contrasts[1].name, "any_melody");
@@ -75,15 +76,17 @@ TEST(LoadConfig, ExampleStudyLoadsWithItsValues) {
   EXPECT_EQ(run2.data_path, dir + "/s01/run2.tsv");
   EXPECT_EQ(run2.events_path, "");
   EXPECT_EQ(run2.where.line, 20);
-  EXPECT_EQ(run2.events.at("melody_known"), (std::vector<Event>{{12.0, 4.0, 1.0}, {40.5, 4.0, 1.0}}));
+  EXPECT_EQ(run2.events.at("melody_known"),
+            (std::vector<Event>{{12.0, 4.0, 1.0}, {40.5, 4.0, 1.0}}));
   EXPECT_EQ(run2.events.at("melody_new"), std::vector<Event>{});
   EXPECT_EQ(run2.events.at("press"), (std::vector<Event>{{17.0, 0.0, 1.0}, {45.5, 0.0, 1.0}}));
 
   // The only diagnostic: run 2 has no event of melody_new.
   ASSERT_EQ(loaded.diagnostics.all().size(), 1u);
   EXPECT_EQ(loaded.diagnostics.all()[0].ToString(),
-            kExampleDir + "/study.yaml:21:9: warning: subjects[0].runs[1].events: no events for "
-                          "condition 'melody_new' in this run");
+            kExampleDir +
+                "/study.yaml:21:9: warning: subjects[0].runs[1].events: no events for "
+                "condition 'melody_new' in this run");
 }
 
 TEST(LoadConfig, DefaultsApplyWhenKeysAreLeftOut) {
@@ -190,15 +193,15 @@ TEST(LoadConfig, InlineAndTableEventsAgree) {
       "    runs:\n"
       "      - data: run1.nii.gz\n";
   const LoadedConfig from_table = dir.Load(head + "        events: events.tsv\n");
-  const LoadedConfig per_event = dir.Load(
-      head +
-      "        events:\n"
-      "          melody_known:\n"
-      "            - {onset: 40.5, duration: 4.0, amplitude: 2.5}\n"
-      "            - {onset: 12.0, duration: 4.0}\n"
-      "          press: [{onset: 3, duration: 0, amplitude: -1}]\n"
-      "          breathing: [{onset: 8}]\n"
-      "          melody_new: [{onset: 20, duration: 2, amplitude: 1}]\n");
+  const LoadedConfig per_event =
+      dir.Load(head +
+               "        events:\n"
+               "          melody_known:\n"
+               "            - {onset: 40.5, duration: 4.0, amplitude: 2.5}\n"
+               "            - {onset: 12.0, duration: 4.0}\n"
+               "          press: [{onset: 3, duration: 0, amplitude: -1}]\n"
+               "          breathing: [{onset: 8}]\n"
+               "          melody_new: [{onset: 20, duration: 2, amplitude: 1}]\n");
   const LoadedConfig by_list = dir.Load(
       head +
       "        events:\n"
@@ -208,10 +211,9 @@ TEST(LoadConfig, InlineAndTableEventsAgree) {
   for (const LoadedConfig* loaded : {&from_table, &per_event, &by_list}) {
     ASSERT_TRUE(loaded->diagnostics.all().empty()) << ErrorsOf(*loaded);
   }
-  const EventsByCondition expected = {
-      {"melody_known", {{12.0, 4.0, 1.0}, {40.5, 4.0, 2.5}}},
-      {"melody_new", {{20.0, 2.0, 1.0}}},
-      {"press", {{3.0, 0.0, -1.0}}}};
+  const EventsByCondition expected = {{"melody_known", {{12.0, 4.0, 1.0}, {40.5, 4.0, 2.5}}},
+                                      {"melody_new", {{20.0, 2.0, 1.0}}},
+                                      {"press", {{3.0, 0.0, -1.0}}}};
   EXPECT_EQ(from_table.spec.subjects[0].runs[0].events, expected);
   EXPECT_EQ(per_event.spec.subjects[0].runs[0].events, expected);
   EXPECT_EQ(by_list.spec.subjects[0].runs[0].events, expected);

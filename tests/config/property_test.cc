@@ -49,8 +49,8 @@ struct GeneratedStudy {
 GeneratedStudy GenerateStudy() {
   GeneratedStudy study;
   ModelSpec& model = study.model;
-  model.tr_s = Scaled(1, 5'000'000'000LL, 1e-9);           // (0, 5] s
-  model.slice_reference = Scaled(0, 1'000'000, 1e-6);     // [0, 1]
+  model.tr_s = Scaled(1, 5'000'000'000LL, 1e-9);       // (0, 5] s
+  model.slice_reference = Scaled(0, 1'000'000, 1e-6);  // [0, 1]
   model.hrf.shape = *rc::gen::element(HrfShape::kDoubleGamma, HrfShape::kGlover, HrfShape::kFir);
   if (model.hrf.shape == HrfShape::kFir) {
     model.hrf.fir_bins = *rc::gen::inRange(0, 20);  // 0: left to the default
@@ -78,8 +78,8 @@ GeneratedStudy GenerateStudy() {
   for (int s = 0; s < n_subjects; ++s) {
     std::vector<GeneratedRun> runs(static_cast<size_t>(*rc::gen::inRange(1, 3)));
     for (GeneratedRun& run : runs) {
-      run.form = *rc::gen::element(EventsForm::kTable, EventsForm::kPerEvent,
-                                   EventsForm::kOnsetsList);
+      run.form =
+          *rc::gen::element(EventsForm::kTable, EventsForm::kPerEvent, EventsForm::kOnsetsList);
       for (const std::string& condition : model.conditions) {
         std::vector<Event>& list = run.events[condition];
         const int n_events = *rc::gen::inRange(0, 5);
@@ -129,8 +129,8 @@ std::string WriteStudy(const GeneratedStudy& study, const StudyDir& dir) {
     yaml += ", degree: " + std::to_string(model.drift.degree);
   }
   yaml += "}\n";
-  yaml += std::string("autocorrelation: ") +
-          (model.noise == NoiseModel::kAr1 ? "ar1" : "none") + "\n";
+  yaml +=
+      std::string("autocorrelation: ") + (model.noise == NoiseModel::kAr1 ? "ar1" : "none") + "\n";
   yaml += "conditions: " + Words(model.conditions) + "\n";
   yaml += "contrasts:\n  c_t: " + WeightMap(study.t_weights) + "\n  c_f:\n";
   for (const auto& row : study.f_rows) yaml += "    - " + WeightMap(row) + "\n";
@@ -158,8 +158,9 @@ std::string WriteStudy(const GeneratedStudy& study, const StudyDir& dir) {
         if (run.form == EventsForm::kPerEvent) {
           yaml += "          " + condition + ":" + (events.empty() ? " []" : "") + "\n";
           for (const Event& e : events) {
-            yaml += "            - {onset: " + Repr(e.onset_s) + ", duration: " +
-                    Repr(e.duration_s) + ", amplitude: " + Repr(e.amplitude) + "}\n";
+            yaml += "            - {onset: " + Repr(e.onset_s) +
+                    ", duration: " + Repr(e.duration_s) + ", amplitude: " + Repr(e.amplitude) +
+                    "}\n";
           }
           continue;
         }
@@ -226,7 +227,7 @@ RC_GTEST_PROP(ConfigProperties, GeneratedStudyRoundTripsThroughYaml, ()) {
 }
 
 struct KeyToken {
-  int line;     // 1-based
+  int line;      // 1-based
   size_t start;  // offset in the text
   size_t length;
 };
@@ -254,8 +255,8 @@ RC_GTEST_PROP(ConfigProperties, CorruptedKeyIsReportedAtItsLine, ()) {
   RC_ASSERT(!keys.empty());
   const KeyToken token = *rc::gen::elementOf(keys);
   const std::string alphabet = "abcdefghijklmnopqrstuvwxyz0123456789_";
-  const size_t at = token.start + static_cast<size_t>(*rc::gen::inRange<int>(
-                                      0, static_cast<int>(token.length)));
+  const size_t at =
+      token.start + static_cast<size_t>(*rc::gen::inRange<int>(0, static_cast<int>(token.length)));
   const int edit = *rc::gen::inRange(0, token.length > 1 ? 3 : 2);
   const char letter = *rc::gen::elementOf(alphabet);
   if (edit == 0) {  // replace

@@ -57,24 +57,25 @@ TEST(ConfigErrors, EventsTableProblems) {
             "30\t1\tbreathing\t1\n"
             "31\tn/a\trest\tn/a\n"
             "32\t1\tmelody_nwe\t1\n");
-  EXPECT_EQ(dir.LoadMessages("tr: 2\n"
-                             "conditions: [melody_known, melody_new, press]\n"
-                             "ignore: [rest]\n"
-                             "subjects:\n"
-                             "  - id: s01\n"
-                             "    runs:\n"
-                             "      - {data: run1.nii.gz, events: bad_events.tsv}\n"),
-            (Messages{"D/bad_events.tsv:3:1: error: column 'onset': must be >= 0 seconds, got -1.5",
-                      "D/bad_events.tsv:4:4: error: column 'duration': must be >= 0 seconds, got -2",
-                      "D/bad_events.tsv:5:4: error: column 'duration': 'n/a' is not allowed; give "
-                      "the duration in seconds (0 for an impulse)",
-                      "D/bad_events.tsv:6:1: error: column 'onset': expected a number in seconds, "
-                      "got '1.5x'",
-                      "D/bad_events.tsv:6:14: error: column 'amplitude': expected a number, got "
-                      "'loud'",
-                      "D/bad_events.tsv:7:6: error: trial types not listed under conditions: "
-                      "'melody_nwe' (line 7; did you mean 'melody_new'?), 'breathing' (line 8); "
-                      "add them to conditions or to ignore"}));
+  EXPECT_EQ(
+      dir.LoadMessages("tr: 2\n"
+                       "conditions: [melody_known, melody_new, press]\n"
+                       "ignore: [rest]\n"
+                       "subjects:\n"
+                       "  - id: s01\n"
+                       "    runs:\n"
+                       "      - {data: run1.nii.gz, events: bad_events.tsv}\n"),
+      (Messages{"D/bad_events.tsv:3:1: error: column 'onset': must be >= 0 seconds, got -1.5",
+                "D/bad_events.tsv:4:4: error: column 'duration': must be >= 0 seconds, got -2",
+                "D/bad_events.tsv:5:4: error: column 'duration': 'n/a' is not allowed; give "
+                "the duration in seconds (0 for an impulse)",
+                "D/bad_events.tsv:6:1: error: column 'onset': expected a number in seconds, "
+                "got '1.5x'",
+                "D/bad_events.tsv:6:14: error: column 'amplitude': expected a number, got "
+                "'loud'",
+                "D/bad_events.tsv:7:6: error: trial types not listed under conditions: "
+                "'melody_nwe' (line 7; did you mean 'melody_new'?), 'breathing' (line 8); "
+                "add them to conditions or to ignore"}));
 }
 
 TEST(ConfigErrors, EventsTableStructure) {
@@ -98,22 +99,23 @@ TEST(ConfigErrors, EventsTableStructure) {
 
 TEST(ConfigErrors, InlineEventProblems) {
   StudyDir dir;
-  EXPECT_EQ(dir.LoadMessages("tr: 2\n"
-                             "conditions: [melody_known, melody_new, press]\n"
-                             "ignore: [breathing]\n"
-                             "subjects:\n"
-                             "  - id: s01\n"
-                             "    runs:\n"
-                             "      - data: run1.nii.gz\n"
-                             "        events:\n"
-                             "          melody_known: [{onset: -4, duration: 2}, {onset: 1, duration: x}]\n"
-                             "          melody_new: {onsets: [1, 2, 3], duration: [2, 2]}\n"
-                             "          press: {onsets: [5, -1], duration: 0, amplitude: [1, y]}\n"
-                             "          melody_nwe: [{onset: 1, duration: 1}]\n"
-                             "          breathing: whatever\n"
-                             "          melody_new_2: 7\n"),
-            (Messages{
-                "D/study.yaml:9:34: error: subjects[0].runs[0].events.melody_known[0].onset: must "
+  EXPECT_EQ(
+      dir.LoadMessages(
+          "tr: 2\n"
+          "conditions: [melody_known, melody_new, press]\n"
+          "ignore: [breathing]\n"
+          "subjects:\n"
+          "  - id: s01\n"
+          "    runs:\n"
+          "      - data: run1.nii.gz\n"
+          "        events:\n"
+          "          melody_known: [{onset: -4, duration: 2}, {onset: 1, duration: x}]\n"
+          "          melody_new: {onsets: [1, 2, 3], duration: [2, 2]}\n"
+          "          press: {onsets: [5, -1], duration: 0, amplitude: [1, y]}\n"
+          "          melody_nwe: [{onset: 1, duration: 1}]\n"
+          "          breathing: whatever\n"
+          "          melody_new_2: 7\n"),
+      (Messages{"D/study.yaml:9:34: error: subjects[0].runs[0].events.melody_known[0].onset: must "
                 "be >= 0 seconds, got -4",
                 "D/study.yaml:9:73: error: subjects[0].runs[0].events.melody_known[1].duration: "
                 "expected a number in seconds, got 'x'",
@@ -176,18 +178,19 @@ TEST(ConfigErrors, ConfoundsFileAndColumns) {
 
 TEST(ConfigErrors, FiveMistakesAreAllReported) {
   StudyDir dir;
-  const LoadedConfig loaded = dir.Load("tr: two\n"
-                                       "conditions: [melody_known, melody_new, press]\n"
-                                       "drfit: {kind: cosine}\n"
-                                       "contrasts:\n"
-                                       "  known: {melody_knwon: 1}\n"
-                                       "subjects:\n"
-                                       "  - id: s01\n"
-                                       "    runs:\n"
-                                       "      - {data: run2.nii.gz, events: run1_events.tsv}\n"
-                                       "  - id: s01\n"
-                                       "    runs:\n"
-                                       "      - {data: run1.nii.gz, events: run1_events.tsv}\n");
+  const LoadedConfig loaded = dir.Load(
+      "tr: two\n"
+      "conditions: [melody_known, melody_new, press]\n"
+      "drfit: {kind: cosine}\n"
+      "contrasts:\n"
+      "  known: {melody_knwon: 1}\n"
+      "subjects:\n"
+      "  - id: s01\n"
+      "    runs:\n"
+      "      - {data: run2.nii.gz, events: run1_events.tsv}\n"
+      "  - id: s01\n"
+      "    runs:\n"
+      "      - {data: run1.nii.gz, events: run1_events.tsv}\n");
   EXPECT_EQ(loaded.diagnostics.ErrorCount(), 5);
   std::vector<int> lines;
   for (const Diagnostic& d : loaded.diagnostics.all()) lines.push_back(d.where.line);

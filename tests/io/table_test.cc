@@ -35,8 +35,9 @@ std::string ThrownMessage(Reader read, const std::string& path) {
 }
 
 TEST(ReadTable, ReadsHeaderRowsAndCellLocations) {
+  // A byte-order mark, CRLF line ends and trailing empty lines, as spreadsheets write.
   const std::string path = WriteTableFile("plain.tsv",
-                                          "onset\tduration\ttrial_type\r\n"
+                                          "\xEF\xBB\xBFonset\tduration\ttrial_type\r\n"
                                           "1.5\t2\tmelody_known\r\n"
                                           "10\t0\tpress\r\n"
                                           "\n\n");
@@ -53,8 +54,7 @@ TEST(ReadTable, ReadsHeaderRowsAndCellLocations) {
 }
 
 TEST(ReadTable, RaggedRowIsAnErrorAtItsLine) {
-  const std::string path =
-      WriteTableFile("ragged.tsv", "a\tb\tc\n1\t2\t3\n4\t5\n6\t7\t8\n");
+  const std::string path = WriteTableFile("ragged.tsv", "a\tb\tc\n1\t2\t3\n4\t5\n6\t7\t8\n");
   EXPECT_EQ(ThrownMessage(ReadTable, path),
             path + ":3: row has 2 tab-separated cells but the header has 3 columns");
   const std::string wide = WriteTableFile("wide.tsv", "a\tb\n1\t2\t\n");
@@ -90,8 +90,8 @@ TEST(ParseNumber, AcceptsOnlyWholeFiniteDecimalNumbers) {
   }
   // Expected values are the decimal literals themselves (the C++ compiler's rounding).
   const std::pair<const char*, double> good[] = {
-      {"1e-3", 1e-3}, {"0", 0.0}, {"-2.5", -2.5}, {"+4", 4.0}, {".5", 0.5},
-      {"5.", 5.0},    {"1E6", 1e6}, {"123456789012345678", 123456789012345678.0}};
+      {"1e-3", 1e-3}, {"0", 0.0},  {"-2.5", -2.5}, {"+4", 4.0},
+      {".5", 0.5},    {"5.", 5.0}, {"1E6", 1e6},   {"123456789012345678", 123456789012345678.0}};
   for (const auto& [text, expected] : good) {
     ASSERT_TRUE(ParseNumber(text, &value)) << text;
     EXPECT_EQ(value, expected) << text;
@@ -117,13 +117,13 @@ TEST(ReadNumericTable, ValuesAndNaCells) {
 
   auto strict = [](const std::string& p) { return ReadNumericTable(p, /*allow_na=*/false); };
   EXPECT_EQ(ThrownMessage(strict, path),
-            path + ":2:5: column 'displacement': 'n/a' is not allowed in this table; every cell "
-                   "must be a number");
+            path +
+                ":2:5: column 'displacement': 'n/a' is not allowed in this table; every cell "
+                "must be a number");
 }
 
 TEST(ReadNumericTable, NonNumericCellIsAnErrorAtItsCell) {
-  const std::string path =
-      WriteTableFile("roi.tsv", "left\tright\n1.0\t2.0\n3.0\t4.0x\n");
+  const std::string path = WriteTableFile("roi.tsv", "left\tright\n1.0\t2.0\n3.0\t4.0x\n");
   auto lenient = [](const std::string& p) { return ReadNumericTable(p, /*allow_na=*/true); };
   EXPECT_EQ(ThrownMessage(lenient, path),
             path + ":3:5: column 'right': expected a finite number, got '4.0x'");
