@@ -127,7 +127,7 @@ struct GroupSpec {
 
 struct LoadedGroupConfig {
   GroupSpec spec;           // meaningful only when !diagnostics.HasErrors()
-  Diagnostics diagnostics;  // every problem found, in file order
+  Diagnostics diagnostics;  // every problem found, in the order checked
 };
 
 // Reads and validates the group config and everything it names short of the voxel

@@ -302,7 +302,9 @@ void ReadSpec(const Reader& reader, const YAML::Node& root, GroupSpec* spec,
   }
   spec->output_dir = root["output"] ? reader.Path(root["output"], "output")
                                     : (fs::path(reader.path()).parent_path() / "group").string();
-  if (!input_ok || diagnostics->HasErrors()) return;
+  // The design and contrasts are still checked after other errors, so that one pass
+  // reports as much as possible; they need a usable input.
+  if (!input_ok) return;
   if (!BuildGroupDesign(design, spec->input.subjects, &spec->design, diagnostics)) return;
   if (root["contrasts"]) {
     ResolveGroupContrasts(contrasts, spec->design, &spec->contrasts, diagnostics);
