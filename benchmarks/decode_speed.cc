@@ -171,7 +171,7 @@ BENCHMARK(BM_Gzread)->Arg(0)->Arg(1 << 20)->Iterations(2)->Unit(benchmark::kMill
 BENCHMARK(BM_ByteSource)->Arg(1 << 16)->Arg(1 << 20)->Arg(4 << 20)->Iterations(2)
     ->Unit(benchmark::kMillisecond)->UseRealTime();
 BENCHMARK(BM_LibdeflateWhole)->Iterations(2)->Unit(benchmark::kMillisecond)->UseRealTime();
-BENCHMARK(BM_VolumeStream)->Args({32, 1})->Args({32, 2})->Args({1, 1})->Iterations(2)
+BENCHMARK(BM_VolumeStream)->Args({32, 1})->Args({32, 3})->Args({1, 1})->Iterations(2)
     ->Unit(benchmark::kMillisecond)->UseRealTime();
 
 }  // namespace

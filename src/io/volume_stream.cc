@@ -1,6 +1,8 @@
+#include <sys/mman.h>
 #include <sys/stat.h>
 
 #include <algorithm>
+#include <cstdint>
 #include <condition_variable>
 #include <exception>
 #include <mutex>
@@ -22,6 +24,21 @@ namespace {
 // 32; 16 keeps the raw tile at half the memory of 32. At most kTileBytes, at least one.
 constexpr int kTileVolumes = 16;
 constexpr int64_t kTileBytes = int64_t{64} << 20;
+
+// Asks for transparent huge pages on the whole 2 MiB pages inside a fresh buffer, before
+// it is first touched: a 60 MB block then costs ~30 page faults instead of ~15,000.
+// Only advice: the kernel may ignore it.
+void AdviseHugePages(void* data, size_t bytes) {
+#ifdef MADV_HUGEPAGE
+  constexpr uintptr_t kHuge = uintptr_t{2} << 20;
+  const uintptr_t begin = (reinterpret_cast<uintptr_t>(data) + kHuge - 1) & ~(kHuge - 1);
+  const uintptr_t end = (reinterpret_cast<uintptr_t>(data) + bytes) & ~(kHuge - 1);
+  if (end > begin) ::madvise(reinterpret_cast<void*>(begin), end - begin, MADV_HUGEPAGE);
+#else
+  (void)data;
+  (void)bytes;
+#endif
+}
 
 std::string TruncationMessage(const std::string& path, int complete, int total) {
   return path + ": file ends after volume " + std::to_string(complete) + " of " +
@@ -58,10 +75,16 @@ void VolumeStream::Impl::ReadBlock(Eigen::MatrixXf* block, int first_volume, int
   const int64_t volume_bytes = layout.VolumeBytes();
   const int tile = static_cast<int>(std::clamp<int64_t>(
       std::min<int64_t>(kTileVolumes, kTileBytes / std::max<int64_t>(volume_bytes, 1)), 1, rows));
+  const float* before = block->data();
   block->resize(rows, static_cast<Eigen::Index>(voxels.size()));
+  if (block->data() != before) AdviseHugePages(block->data(), size_t(block->size()) * 4);
   for (int row = 0; row < rows; row += tile) {
     const int count = std::min(tile, rows - row);
     const size_t want = static_cast<size_t>(volume_bytes * count);
+    if (raw->capacity() < want) {
+      raw->reserve(want);
+      AdviseHugePages(raw->data(), want);
+    }
     if (raw->size() < want) raw->resize(want);
     const size_t got = source->Read(raw->data(), want);
     if (got < want) {

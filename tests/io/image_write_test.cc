@@ -6,6 +6,7 @@
 #include <sys/resource.h>
 
 #include <cmath>
+#include <functional>
 #include <limits>
 
 #include "boldsum/io.h"

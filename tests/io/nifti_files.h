@@ -100,7 +100,8 @@ void FillCommon(const HeaderSpec& s, int vox_offset, Header* h) {
 // The header, the 4-byte extension flag, any extension, ready to precede the data.
 inline std::string HeaderBytes(const HeaderSpec& s) {
   const int header_size = s.version == 1 ? 348 : 540;
-  const int ext_size = s.extension.empty() ? 0 : 8 + static_cast<int>((s.extension.size() + 15) / 16 * 16);
+  const int ext_size =
+      s.extension.empty() ? 0 : 8 + static_cast<int>((s.extension.size() + 15) / 16 * 16);
   const int vox_offset = header_size + 4 + ext_size;
   std::string bytes;
   if (s.version == 1) {

@@ -5,6 +5,7 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
+#include <functional>
 #include <limits>
 
 #include "boldsum/io.h"
@@ -78,7 +79,9 @@ void CheckDatatype(int datatype, int bitpix, const std::vector<T>& raw) {
   }
 }
 
-TEST(NiftiRead, Uint8) { CheckDatatype<uint8_t>(DT_UINT8, 8, {0, 1, 2, 127, 128, 255, 7, 9, 11, 13, 200, 3}); }
+TEST(NiftiRead, Uint8) {
+  CheckDatatype<uint8_t>(DT_UINT8, 8, {0, 1, 2, 127, 128, 255, 7, 9, 11, 13, 200, 3});
+}
 
 TEST(NiftiRead, Int16) {
   CheckDatatype<int16_t>(DT_INT16, 16, {-32768, -1, 0, 1, 32767, 12345, 5, -5, 7, 9, 11, -300});

@@ -4,6 +4,7 @@
 #include <rapidcheck/gtest.h>
 
 #include <numeric>
+#include <functional>
 
 #include "boldsum/io.h"
 #include "nifti_files.h"

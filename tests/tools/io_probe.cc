@@ -137,11 +137,15 @@ int Main(int argc, char** argv) {
     return 0;
   }
   if (command == "sha256-text") {
-    while (std::getline(std::cin, line)) std::printf("%s\n", boldsum::Sha256(FromHex(line)).c_str());
+    while (std::getline(std::cin, line)) {
+      std::printf("%s\n", boldsum::Sha256(FromHex(line)).c_str());
+    }
     return 0;
   }
   if (command == "json-quote") {
-    while (std::getline(std::cin, line)) std::printf("%s\n", boldsum::JsonQuote(FromHex(line)).c_str());
+    while (std::getline(std::cin, line)) {
+      std::printf("%s\n", boldsum::JsonQuote(FromHex(line)).c_str());
+    }
     return 0;
   }
   if (command == "json-number") {
