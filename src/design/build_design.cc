@@ -24,6 +24,7 @@ std::string FormatSeconds(double seconds) {
 
 void AppendColumns(DesignMatrix* design, const Eigen::MatrixXd& values,
                    std::vector<DesignColumn> columns) {
+  if (values.cols() == 0) return;
   const Eigen::Index start = design->x.cols();
   design->x.conservativeResize(design->x.rows(), start + values.cols());
   design->x.middleCols(start, values.cols()) = values;

@@ -124,6 +124,17 @@ DesignReport::PerCondition DescribeCondition(const std::string& condition,
   return report;
 }
 
+// Every row of c within 1e-8 (relative) of the span of X's leading right singular vectors.
+bool IsInRowSpace(const Spectrum& spectrum, const Eigen::MatrixXd& c) {
+  if (c.size() == 0) return true;
+  const Eigen::MatrixXd row_space = spectrum.v.leftCols(spectrum.rank);
+  const Eigen::MatrixXd outside = c - (c * row_space) * row_space.transpose();
+  for (Eigen::Index r = 0; r < c.rows(); ++r) {
+    if (outside.row(r).norm() > 1e-8 * c.row(r).norm()) return false;
+  }
+  return true;
+}
+
 }  // namespace
 
 bool IsEstimable(const Eigen::MatrixXd& x, const Eigen::MatrixXd& c) {
@@ -131,13 +142,7 @@ bool IsEstimable(const Eigen::MatrixXd& x, const Eigen::MatrixXd& c) {
     throw Error("contrast has " + std::to_string(c.cols()) + " weights but the design has " +
                 std::to_string(x.cols()) + " columns");
   }
-  const Spectrum spectrum = Decompose(x);
-  const Eigen::MatrixXd row_space = spectrum.v.leftCols(spectrum.rank);
-  const Eigen::MatrixXd outside = c - (c * row_space) * row_space.transpose();
-  for (Eigen::Index r = 0; r < c.rows(); ++r) {
-    if (outside.row(r).norm() > 1e-8 * c.row(r).norm()) return false;
-  }
-  return true;
+  return IsInRowSpace(Decompose(x), c);
 }
 
 DesignReport DescribeDesign(const DesignMatrix& design, const ModelSpec& model,
@@ -174,7 +179,7 @@ DesignReport DescribeDesign(const DesignMatrix& design, const ModelSpec& model,
     DesignReport::PerContrast entry;
     entry.contrast = contrast.name;
     const Eigen::MatrixXd c = ContrastWeights(contrast, design);
-    entry.estimable = IsEstimable(x, c);
+    entry.estimable = IsInRowSpace(spectrum, c);
     if (entry.estimable) {
       const double trace = ((c * row_space) * inverse_singular.asDiagonal()).squaredNorm();
       entry.efficiency = trace > 0.0 ? 1.0 / trace : kInfinity;

@@ -20,6 +20,9 @@ constexpr double kLeftMargin = 64.0;
 constexpr double kRightMargin = 24.0;
 constexpr double kBottomMargin = 16.0;
 constexpr double kFontSize = 11.0;
+// Bands overlap the next one by this much, so that no background seam shows where a band
+// edge falls between pixels.
+constexpr double kSeamOverlap = 0.5;
 
 std::string Number(double value) {
   char text[32];
@@ -123,7 +126,8 @@ std::string DesignToSvg(const DesignMatrix& design, const std::string& title) {
       std::snprintf(colour, sizeof colour, "#%02x%02x%02x", grey, grey, grey);
       svg += "<rect x=\"" + Number(x) + "\" y=\"" + Number(top + start * row_height) +
              "\" width=\"" + Number(cell_width) + "\" height=\"" +
-             Number((end - start) * row_height) + "\" fill=\"" + colour + "\"/>\n";
+             Number((end - start) * row_height + (end < display_rows ? kSeamOverlap : 0.0)) +
+             "\" fill=\"" + colour + "\"/>\n";
       start = end;
     }
   }
