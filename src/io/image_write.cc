@@ -6,6 +6,7 @@
 #include <cstring>
 #include <cstdio>
 #include <memory>
+#include <mutex>
 
 #include "boldsum/io.h"
 #include "io/atomic_file.h"
@@ -67,10 +68,14 @@ std::unique_ptr<nifti_image, NimDeleter> MakeImage(const std::string& path,
 void WriteToTemporary(const std::string& path, const std::string& file, bool gzip,
                       const ImageGeometry& geometry, const std::vector<float>& values,
                       int n_volumes) {
-  auto nim = MakeImage(path, file, geometry, n_volumes);
   // Header (and the empty extension block) first, through nifticlib; the file is left
   // open so that the values can be written, and each write checked, here.
-  znzFile out = nifti_image_write_hdr_img2(nim.get(), 2, gzip ? "wb1" : "wb", nullptr, nullptr);
+  znzFile out;
+  {
+    std::lock_guard<std::mutex> lock(NifticlibMutex());
+    auto nim = MakeImage(path, file, geometry, n_volumes);
+    out = nifti_image_write_hdr_img2(nim.get(), 2, gzip ? "wb1" : "wb", nullptr, nullptr);
+  }
   if (znz_isnull(out)) throw Error(path + ": cannot write the NIfTI header to " + file);
   const size_t total = values.size() * sizeof(float);
   errno = 0;

@@ -62,6 +62,11 @@ int CheckedInt(const std::string& path, const char* what, int64_t value) {
 
 }  // namespace
 
+std::mutex& NifticlibMutex() {
+  static std::mutex mutex;
+  return mutex;
+}
+
 std::string DatatypeName(int code) {
   switch (code) {
     case DT_BINARY: return "binary";
@@ -92,6 +97,7 @@ NiftiLayout ReadNiftiLayout(const std::string& path) {
   } else {
     throw Error(path + ": cannot open (" + std::strerror(errno) + ")");
   }
+  std::lock_guard<std::mutex> lock(NifticlibMutex());
   // The image struct does not tell NIfTI-1 from NIfTI-2; the raw header does.
   int version = 0;
   void* raw_header = nifti_read_header(path.c_str(), &version, 1);

@@ -3,6 +3,7 @@
 #pragma once
 
 #include <cstdint>
+#include <mutex>
 #include <string>
 
 #include "boldsum/io.h"
@@ -31,6 +32,10 @@ struct NiftiLayout {
 // unreadable, is not NIfTI-1/-2 (including ANALYZE 7.5), has more than 4 dimensions, or
 // has a datatype other than uint8, int16, int32, float32, float64.
 NiftiLayout ReadNiftiLayout(const std::string& path);
+
+// Held around every nifticlib call: the library keeps global state and does not promise
+// to be thread-safe, while boldsum reads and writes images from several threads.
+std::mutex& NifticlibMutex();
 
 // Lower-case name of a NIfTI datatype code ("int8", "complex64", ...; "code <n>" when
 // the code is not in the standard).

@@ -8,6 +8,7 @@
 #include <cmath>
 #include <functional>
 #include <limits>
+#include <thread>
 
 #include "boldsum/io.h"
 #include "nifti_files.h"
@@ -187,6 +188,30 @@ TEST(WriteImage, FailedWriteLeavesTheOldFile) {
     EXPECT_EQ(testing::ReadBytes(path), "old contents");
   }
   EXPECT_EQ(dir.Entries(), (std::vector<std::string>{"f.nii", "f.nii.gz"}));
+}
+
+// Outputs are written from several threads at once (one per subject); nifticlib's global
+// state must not mix them up.
+TEST(WriteImage, ConcurrentWritersAndReaders) {
+  ScratchDir dir;
+  const ImageGeometry g = Oblique(2);
+  std::vector<std::thread> threads;
+  std::vector<int> good(4, 0);
+  for (int k = 0; k < 4; ++k) {
+    threads.emplace_back([&, k] {
+      for (int i = 0; i < 6; ++i) {
+        const std::string path = dir / ("t" + std::to_string(k) + "_" + std::to_string(i) +
+                                        (i % 2 ? ".nii.gz" : ".nii"));
+        std::vector<float> values = Values(g.n_voxels() * 2);
+        values[0] = static_cast<float>(100 * k + i);
+        WriteImage(path, g, values, 2);
+        good[static_cast<size_t>(k)] += SameFloats(ReadAll(path), values);
+      }
+    });
+  }
+  for (std::thread& t : threads) t.join();
+  EXPECT_EQ(good, std::vector<int>(4, 6));
+  EXPECT_EQ(dir.Entries().size(), 24u);
 }
 
 TEST(WriteFileAtomically, WritesAndReplaces) {
