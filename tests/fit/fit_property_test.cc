@@ -140,7 +140,7 @@ RC_GTEST_PROP(FitProperty, AffineDataChangeMovesEstimatesAccordingly, ()) {
 // change its rounding (observed: a few voxels in a hundred runs, by ~1e-17 relative),
 // so the tolerance is 1e-12 relative rather than bitwise.
 RC_GTEST_PROP(FitProperty, PermutingVoxelsPermutesOutputs, ()) {
-  const RealisticCase d = GenRealisticCase(1, 600);
+  const RealisticCase d = GenRealisticCase(1, 300);
   std::vector<int> perm(static_cast<size_t>(d.y.cols()));
   std::iota(perm.begin(), perm.end(), 0);
   std::mt19937_64 rng(*rc::gen::inRange(0, 1 << 30));
@@ -162,7 +162,7 @@ RC_GTEST_PROP(FitProperty, PermutingVoxelsPermutesOutputs, ()) {
 
 // Every voxel's arithmetic is the same for any thread count: bitwise identical outputs.
 RC_GTEST_PROP(FitProperty, ThreadCountNeverChangesABit, ()) {
-  const RealisticCase d = GenRealisticCase(257, 1100);
+  const RealisticCase d = GenRealisticCase(257, 560);  // two or three voxel chunks
   Eigen::MatrixXd c = Eigen::MatrixXd::Zero(2, d.x.cols());
   c(0, 0) = c(1, 1) = 1.0;
   const Outputs o1 = FitAll(d.x, d.y, c, NoiseModel::kAr1, 1, 64);
