@@ -15,6 +15,10 @@ struct StudyOptions {
   std::vector<std::string> subjects;  // ids to process; empty means all
   std::string output_dir;             // overrides the config's `output` when not ""
   int threads = 0;                    // 0 means one per hardware thread
+  bool force = false;                 // fit: refit every subject, ignoring saved results
+  bool live_progress = false;         // fit: a live progress line (for a terminal)
+  bool quiet = false;                 // fit: no progress or log lines
+  double memory_gb = 0;               // fit: budget for concurrent subjects; 0 = half of RAM
 };
 
 // Reads every run's data header, builds its design, writes
@@ -23,11 +27,24 @@ struct StudyOptions {
 // Returns true when every model is usable; otherwise prints the reasons.
 bool CheckStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log);
 
-// Fits every selected subject (see DESIGN.md for the statistics) and writes its
-// outputs under OUT/<subject>/, replacing earlier results only when the subject
-// completed. Throws Error on the first subject that cannot be fitted; subjects
-// finished before it keep their new outputs.
+// Brings every selected subject up to date (see DESIGN.md for the statistics): a subject
+// whose recorded fingerprint matches is skipped; one whose only change is in the
+// contrasts has them recomputed from its saved fit without reading the data; any
+// other is refitted (all of them with options.force). Subjects run concurrently under
+// the memory budget, each with a share of the threads; the results do not depend on
+// either. Outputs go to OUT/<subject>/, replaced only when the subject completed.
+// Throws Error on the first subject that fails, or when interrupted (Ctrl-C); subjects
+// finished before keep their new outputs.
 void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log);
+
+// Lists every selected subject as up to date, stale (and why) or missing. Returns the
+// number of subjects that are not up to date.
+int PrintStudyStatus(const StudySpec& spec, const StudyOptions& options, std::ostream& out);
+
+// Ctrl-C (SIGINT) and SIGTERM set a flag that running fits poll: the subject in progress
+// is abandoned without partial files, finished subjects keep their outputs.
+void InstallInterruptHandler();
+bool IsInterrupted();
 
 // Prints a table of true versus estimated known_vs_new effects in the demo's regions,
 // from a fitted demo study folder. Throws Error if the fit outputs are missing.

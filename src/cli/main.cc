@@ -1,7 +1,9 @@
 // The boldsum command line: parses arguments, calls the library, maps errors to exit
 // codes. 0 success; 1 invalid input or a failed run; 2 command-line usage error;
-// 3 `check` found a model that cannot be fitted.
+// 3 `check` found a model that cannot be fitted, or `status` found subjects that are
+// not up to date; 130 interrupted.
 #include <CLI/CLI.hpp>
+#include <unistd.h>
 
 #include <filesystem>
 #include <iostream>
@@ -11,12 +13,14 @@
 #include "boldsum/error.h"
 #include "boldsum/study.h"
 #include "study/demo_study.h"
+#include "study/export_workflow.h"
 
 namespace {
 
 constexpr int kExitInvalidInput = 1;
 constexpr int kExitUsage = 2;
 constexpr int kExitUnusableModel = 3;
+constexpr int kExitInterrupted = 130;
 
 // Loads and validates a config, printing every diagnostic; nullopt when invalid.
 std::optional<boldsum::StudySpec> LoadOrReport(const std::string& path) {
@@ -36,6 +40,61 @@ void AddStudyOptions(CLI::App* command, std::string* config, boldsum::StudyOptio
                       "only this subject (repeatable; default: all)");
   command->add_option("--out", options->output_dir,
                       "output folder (default: the config's `output`)");
+}
+
+// `export snakemake` and `export slurm`: where to write, the study's output folder and
+// the job settings; the SLURM-only settings on `slurm` alone.
+struct ExportCommands {
+  CLI::App* snakemake = nullptr;
+  CLI::App* slurm = nullptr;
+  std::string target;
+};
+
+void AddExportCommands(CLI::App* app, std::string* config, boldsum::WorkflowOptions* workflow,
+                       ExportCommands* commands) {
+  CLI::App* exporter = app->add_subcommand(
+      "export", "write the study as a workflow for many machines (Snakemake, SLURM)");
+  exporter->require_subcommand(1);
+  commands->snakemake = exporter->add_subcommand(
+      "snakemake", "write a Snakefile: one job per subject, then the gather job");
+  commands->slurm = exporter->add_subcommand(
+      "slurm", "write a folder with a SLURM job array over the subjects, the gather job and "
+               "submit.sh");
+  for (CLI::App* command : {commands->snakemake, commands->slurm}) {
+    command->add_option("config", *config, "study config file (YAML)")->required();
+    command->add_option("-o", commands->target,
+                        command == commands->slurm ? "folder to write the scripts to"
+                                                   : "Snakefile to write")
+        ->required();
+    command->add_option("--out", workflow->output_dir,
+                        "the study's output folder (default: the config's `output`)");
+    command->add_option("--threads", workflow->threads, "threads per subject job (default 4)")
+        ->check(CLI::PositiveNumber);
+    command->add_option("--mem-mb", workflow->memory_mb, "memory per job in MB (default 8000)")
+        ->check(CLI::PositiveNumber);
+    command->add_option("--time", workflow->time_minutes,
+                        "wall time per job in minutes (default 240)")
+        ->check(CLI::PositiveNumber);
+  }
+  commands->slurm->add_option("--partition", workflow->partition,
+                              "SLURM partition (default: the cluster's default)");
+  commands->slurm->add_option("--account", workflow->account,
+                              "SLURM account (default: your default account)");
+  commands->slurm->add_option("--max-running", workflow->max_running,
+                              "array tasks running at once (default: no limit)")
+      ->check(CLI::NonNegativeNumber);
+  commands->slurm->add_option("--array-size", workflow->array_size,
+                              "tasks per array; larger studies are queued as several arrays "
+                              "(default 1000, below SLURM's usual MaxArraySize)")
+      ->check(CLI::PositiveNumber);
+}
+
+// The absolute path of this executable, which exported jobs run.
+std::string ThisExecutable(const char* argv0) {
+  std::error_code error;
+  const std::filesystem::path self = std::filesystem::read_symlink("/proc/self/exe", error);
+  if (!error) return self.string();
+  return std::filesystem::absolute(argv0).lexically_normal().string();
 }
 
 }  // namespace
@@ -58,6 +117,15 @@ int main(int argc, char** argv) {
   AddStudyOptions(fit, &config, &options);
   fit->add_option("--threads", options.threads, "worker threads (default: all cores)")
       ->check(CLI::NonNegativeNumber);
+  fit->add_flag("--force", options.force, "refit every subject, ignoring saved results");
+  fit->add_flag("--quiet", options.quiet, "print nothing but errors");
+  fit->add_option("--memory", options.memory_gb,
+                  "memory budget in GB for subjects fitted at once (default: half of RAM)")
+      ->check(CLI::PositiveNumber);
+
+  CLI::App* status = app.add_subcommand(
+      "status", "list every subject as up to date, stale (and why) or missing");
+  AddStudyOptions(status, &config, &options);
 
   std::string demo_dir;
   uint64_t seed = 20261202;
@@ -69,6 +137,10 @@ int main(int argc, char** argv) {
   CLI::App* compare = app.add_subcommand(
       "demo-compare", "print true versus estimated effects of a fitted demo study");
   compare->add_option("dir", demo_dir, "the demo study folder")->required();
+
+  boldsum::WorkflowOptions workflow;
+  ExportCommands exports;
+  AddExportCommands(&app, &config, &workflow, &exports);
 
   try {
     app.parse(argc, argv);
@@ -92,14 +164,34 @@ int main(int argc, char** argv) {
     }
     const std::optional<boldsum::StudySpec> spec = LoadOrReport(config);
     if (!spec) return kExitInvalidInput;
+    if (*exports.snakemake || *exports.slurm) {
+      workflow.boldsum_path = ThisExecutable(argv[0]);
+      if (!workflow.output_dir.empty()) {
+        workflow.output_dir = std::filesystem::absolute(workflow.output_dir).string();
+      }
+      if (*exports.snakemake) {
+        boldsum::ExportSnakefile(*spec, workflow, exports.target);
+        std::cout << "Snakefile written to " << exports.target << "\n";
+      } else {
+        boldsum::ExportSlurmFolder(*spec, workflow, exports.target);
+        std::cout << "SLURM scripts written to " << exports.target << "/ (queue them with: bash "
+                  << exports.target << "/submit.sh)\n";
+      }
+      return 0;
+    }
     if (*check) {
       return boldsum::CheckStudy(*spec, options, std::cout) ? 0 : kExitUnusableModel;
     }
+    if (*status) {
+      return boldsum::PrintStudyStatus(*spec, options, std::cout) == 0 ? 0 : kExitUnusableModel;
+    }
+    options.live_progress = isatty(STDOUT_FILENO) != 0;
+    boldsum::InstallInterruptHandler();
     boldsum::FitStudy(*spec, options, std::cout);
     return 0;
   } catch (const boldsum::Error& error) {
     std::cerr << "boldsum: " << error.what() << "\n";
-    return kExitInvalidInput;
+    return boldsum::IsInterrupted() ? kExitInterrupted : kExitInvalidInput;
   } catch (const std::exception& error) {
     std::cerr << "boldsum: internal error: " << error.what() << "\n";
     return kExitInvalidInput;

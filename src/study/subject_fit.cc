@@ -74,7 +74,69 @@ std::vector<int64_t> AutomaticMask(const std::string& image_path) {
   return voxels;
 }
 
-SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads) {
+namespace {
+
+// Validity across runs, then every contrast per run and combined.
+void EvaluateContrasts(const StudySpec& spec, SubjectFit* subject, int threads) {
+  const std::vector<RunPlan>& runs = subject->plan.runs;
+  FitOptions options;
+  options.noise = spec.model.noise;
+  options.threads = threads;
+  const size_t n_voxels = subject->runs.front().valid.size();
+  subject->valid.assign(n_voxels, 1);
+  for (const RunFit& fit : subject->runs) {
+    for (size_t v = 0; v < n_voxels; ++v) subject->valid[v] &= fit.valid[v];
+  }
+  for (const ContrastSpec& contrast : spec.contrasts) {
+    ContrastOutcome outcome;
+    outcome.spec = &contrast;
+    for (size_t r = 0; r < runs.size(); ++r) {
+      outcome.weights.push_back(ContrastWeights(contrast, runs[r].design));
+      outcome.per_run.push_back(
+          EstimateContrast(subject->runs[r], outcome.weights.back(), options));
+    }
+    CombineContrast(*subject, &outcome, threads);
+    for (int index : outcome.runs_left_out) {
+      subject->warnings.AddWarning(
+          {}, "run " + std::to_string(index) + ": contrast '" + contrast.name +
+                  "' cannot be estimated from this run's design; the run is left out of it");
+    }
+    if (!outcome.estimable) {
+      subject->warnings.AddWarning(
+          {}, "contrast '" + contrast.name + "' cannot be estimated from any run");
+    }
+    subject->contrasts.push_back(std::move(outcome));
+  }
+}
+
+// Streams an image run through FitRun, reporting volumes and honouring interruption.
+class StreamSource : public BlockSource {
+ public:
+  StreamSource(VolumeStream* stream, int volumes, int voxels, int64_t volumes_before,
+               const VolumeCallback& on_volumes)
+      : stream_(stream), volumes_(volumes), voxels_(voxels), read_(volumes_before),
+        on_volumes_(on_volumes) {}
+  int n_volumes() const override { return volumes_; }
+  int n_voxels() const override { return voxels_; }
+  bool Next(Eigen::MatrixXf* block) override {
+    if (!stream_->Next(block)) return false;
+    read_ += block->rows();
+    if (on_volumes_) on_volumes_(read_);
+    return true;
+  }
+
+ private:
+  VolumeStream* stream_;
+  int volumes_;
+  int voxels_;
+  int64_t read_;
+  const VolumeCallback& on_volumes_;
+};
+
+}  // namespace
+
+SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads,
+                      const VolumeCallback& on_volumes) {
   SubjectFit subject;
   subject.plan = std::move(plan);
   const std::vector<RunPlan>& runs = subject.plan.runs;
@@ -92,57 +154,45 @@ SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads) {
     subject.regions = runs.front().regions.names;
   }
 
+  int64_t volumes_read = 0;
   for (const RunPlan& run : runs) {
-    subject.warnings.Append(run.warnings);
     if (run.kind == DataKind::kImage) {
       // Blocks of 32 volumes keep memory flat in N while GEMM stays efficient.
       VolumeStream stream(run.spec->data_path, subject.voxels, 32);
-      struct StreamSource : BlockSource {
-        VolumeStream* stream;
-        int volumes;
-        int voxels;
-        int n_volumes() const override { return volumes; }
-        int n_voxels() const override { return voxels; }
-        bool Next(Eigen::MatrixXf* block) override { return stream->Next(block); }
-      } source;
-      source.stream = &stream;
-      source.volumes = run.n_volumes;
-      source.voxels = static_cast<int>(subject.voxels.size());
+      StreamSource source(&stream, run.n_volumes, static_cast<int>(subject.voxels.size()),
+                          volumes_read, on_volumes);
       subject.runs.push_back(FitRun(run.design.x, &source, options));
     } else {
       MatrixSource source(run.regions.values);
       subject.runs.push_back(FitRun(run.design.x, &source, options));
     }
+    volumes_read += run.n_volumes;
+    if (on_volumes) on_volumes(volumes_read);
   }
+  EvaluateContrasts(spec, &subject, threads);
+  return subject;
+}
 
-  const size_t n_voxels = subject.runs.front().valid.size();
-  subject.valid.assign(n_voxels, 1);
-  for (const RunFit& fit : subject.runs) {
-    for (size_t v = 0; v < n_voxels; ++v) subject.valid[v] &= fit.valid[v];
+SubjectFit RefitContrasts(const StudySpec& spec, SubjectPlan plan, FitRecord record,
+                          int threads) {
+  SubjectFit subject;
+  subject.plan = std::move(plan);
+  const std::vector<RunPlan>& runs = subject.plan.runs;
+  const std::string where = "subject " + subject.plan.spec->id + ": saved fit";
+  if (record.runs.size() != runs.size()) throw Error(where + " has a different number of runs");
+  for (size_t r = 0; r < runs.size(); ++r) {
+    if (record.runs[r].beta.rows() != runs[r].design.n_columns()) {
+      throw Error(where + " does not match run " + std::to_string(r + 1) + "'s design");
+    }
   }
-
-  for (const ContrastSpec& contrast : spec.contrasts) {
-    ContrastOutcome outcome;
-    outcome.spec = &contrast;
-    for (size_t r = 0; r < runs.size(); ++r) {
-      outcome.weights.push_back(ContrastWeights(contrast, runs[r].design));
-      outcome.per_run.push_back(EstimateContrast(subject.runs[r], outcome.weights.back(), options));
-    }
-    CombineContrast(subject, &outcome, threads);
-    for (int index : outcome.runs_left_out) {
-      subject.warnings.AddWarning(
-          runs[static_cast<size_t>(index - 1)].spec->where,
-          "subject " + subject.plan.spec->id + ", run " + std::to_string(index) +
-              ": contrast '" + contrast.name +
-              "' cannot be estimated from this run's design; the run is left out of it");
-    }
-    if (!outcome.estimable) {
-      subject.warnings.AddWarning(contrast.where, "subject " + subject.plan.spec->id +
-                                                      ": contrast '" + contrast.name +
-                                                      "' cannot be estimated from any run");
-    }
-    subject.contrasts.push_back(std::move(outcome));
+  if (subject.plan.kind == DataKind::kImage) {
+    subject.geometry = runs.front().geometry;
+    subject.voxels = std::move(record.voxels);
+  } else {
+    subject.regions = runs.front().regions.names;
   }
+  subject.runs = std::move(record.runs);
+  EvaluateContrasts(spec, &subject, threads);
   return subject;
 }
 

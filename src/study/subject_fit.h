@@ -3,11 +3,13 @@
 #pragma once
 
 #include <cstdint>
+#include <functional>
 #include <string>
 #include <vector>
 
 #include "boldsum/combine.h"
 #include "boldsum/fit.h"
+#include "study/fit_record.h"
 #include "study/run_plan.h"
 
 namespace boldsum {
@@ -33,14 +35,26 @@ struct SubjectFit {
   std::vector<RunFit> runs;
   std::vector<ContrastOutcome> contrasts;
   std::vector<unsigned char> valid;          // per voxel: valid in every run
-  Diagnostics warnings;                      // design warnings and left-out runs
+  Diagnostics warnings;                      // runs left out of contrasts (design
+                                             // warnings stay with plan.runs)
 };
+
+// Called with the volumes read so far (cumulative over the subject's runs); throwing
+// from it (e.g. on Ctrl-C) abandons the fit.
+using VolumeCallback = std::function<void(int64_t volumes_read)>;
 
 // The automatic mask of an image: voxels of the first volume that are finite and above
 // 20% of the 98th percentile of the first volume's finite values.
 std::vector<int64_t> AutomaticMask(const std::string& image_path);
 
 // Fits a planned subject. Throws Error when a run cannot be read or fitted.
-SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads);
+SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads,
+                      const VolumeCallback& on_volumes);
+
+// The subject from a saved fit, with contrasts evaluated anew: bitwise the same as
+// FitSubject on the same inputs, without reading the data. Throws Error when the record
+// does not match the plan (run count, design width, voxel count).
+SubjectFit RefitContrasts(const StudySpec& spec, SubjectPlan plan, FitRecord record,
+                          int threads);
 
 }  // namespace boldsum

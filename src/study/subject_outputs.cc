@@ -59,13 +59,39 @@ double MeanValid(const Eigen::VectorXd& values, const std::vector<unsigned char>
   return count ? sum / count : std::nan("");
 }
 
-std::string SummaryJson(const StudySpec& spec, const SubjectFit& subject) {
+std::string StringListJson(const std::vector<std::string>& values, const std::string& indent) {
+  if (values.empty()) return "[]";
+  std::string text = "[";
+  for (size_t i = 0; i < values.size(); ++i) {
+    text += (i ? "," : "") + ("\n" + indent + "  ") + JsonQuote(values[i]);
+  }
+  return text + "\n" + indent + "]";
+}
+
+// Warning texts without their config locations: line numbers move when the config is
+// edited, and summary.json must not change unless the subject's results do.
+std::vector<std::string> Messages(const Diagnostics& diagnostics) {
+  std::vector<std::string> messages;
+  for (const Diagnostic& d : diagnostics.all()) messages.push_back(d.message);
+  return messages;
+}
+
+std::string SummaryJson(const StudySpec& spec, const SubjectFit& subject,
+                        const SubjectFingerprint& fingerprint) {
   std::ostringstream json;
   const SubjectPlan& plan = subject.plan;
   json << "{\n  \"tool\": \"boldsum\",\n  \"version\": " << JsonQuote(BOLDSUM_VERSION) << ",\n"
        << "  \"subject\": " << JsonQuote(plan.spec->id) << ",\n"
        << "  \"config\": " << JsonQuote(spec.config_path) << ",\n"
-       << "  \"config_sha256\": " << JsonQuote(FileSha256(spec.config_path)) << ",\n"
+       << "  \"fingerprint\": {\"model_sha256\": " << JsonQuote(fingerprint.model_sha256)
+       << ", \"contrasts_sha256\": " << JsonQuote(fingerprint.contrasts_sha256)
+       << ",\n    \"inputs\": [";
+  size_t input = 0;
+  for (const auto& [path, sha] : fingerprint.inputs) {
+    json << (input++ ? "," : "") << "\n      {\"path\": " << JsonQuote(path)
+         << ", \"sha256\": " << JsonQuote(sha) << "}";
+  }
+  json << "]},\n"
        << "  \"data_kind\": " << JsonQuote(plan.kind == DataKind::kImage ? "image" : "regions")
        << ",\n"
        << "  \"autocorrelation\": "
@@ -91,14 +117,8 @@ std::string SummaryJson(const StudySpec& spec, const SubjectFit& subject) {
     for (const DesignColumn& column : run.design.columns) censored += column.kind == ColumnKind::kCensor;
     json << (r ? "," : "") << "\n    {\"run\": " << run.index
          << ", \"data\": " << JsonQuote(run.spec->data_path)
-         << ", \"data_sha256\": " << JsonQuote(FileSha256(run.spec->data_path))
          << ",\n     \"events\": " << JsonQuote(run.spec->events_path)
-         << ", \"events_sha256\": "
-         << (run.spec->events_path.empty() ? "null" : JsonQuote(FileSha256(run.spec->events_path)))
          << ",\n     \"confounds\": " << JsonQuote(run.spec->confounds_path)
-         << ", \"confounds_sha256\": "
-         << (run.spec->confounds_path.empty() ? "null"
-                                              : JsonQuote(FileSha256(run.spec->confounds_path)))
          << ",\n     \"volumes\": " << run.n_volumes << ", \"columns\": [";
     for (size_t j = 0; j < run.design.columns.size(); ++j) {
       json << (j ? ", " : "") << JsonQuote(run.design.columns[j].name);
@@ -107,7 +127,8 @@ std::string SummaryJson(const StudySpec& spec, const SubjectFit& subject) {
          << ", \"censored_volumes\": " << censored
          << ", \"mean_ar1\": " << JsonNumber(MeanValid(fit.rho, fit.valid))
          << ", \"excluded_nonfinite\": " << fit.n_nonfinite
-         << ", \"excluded_zero_variance\": " << fit.n_constant << "}";
+         << ", \"excluded_zero_variance\": " << fit.n_constant
+         << ",\n     \"warnings\": " << StringListJson(Messages(run.warnings), "     ") << "}";
   }
   json << "\n  ],\n  \"contrasts\": [";
   for (size_t c = 0; c < subject.contrasts.size(); ++c) {
@@ -125,12 +146,8 @@ std::string SummaryJson(const StudySpec& spec, const SubjectFit& subject) {
     }
     json << "]}";
   }
-  json << "\n  ],\n  \"warnings\": [";
-  const auto& warnings = subject.warnings.all();
-  for (size_t i = 0; i < warnings.size(); ++i) {
-    json << (i ? "," : "") << "\n    " << JsonQuote(warnings[i].ToString());
-  }
-  json << (warnings.empty() ? "]" : "\n  ]") << "\n}\n";
+  json << "\n  ],\n  \"warnings\": " << StringListJson(Messages(subject.warnings), "  ")
+       << "\n}\n";
   return json.str();
 }
 
@@ -187,7 +204,8 @@ void WriteRunDesign(const RunPlan& run, const std::string& subject_id,
                       DesignToSvg(run.design, subject_id + " run " + std::to_string(run.index)));
 }
 
-void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject, OutputStage* stage) {
+void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject,
+                         const SubjectFingerprint& fingerprint, OutputStage* stage) {
   const SubjectPlan& plan = subject.plan;
   const bool images = plan.kind == DataKind::kImage;
   for (size_t r = 0; r < plan.runs.size(); ++r) {
@@ -238,7 +256,11 @@ void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject, Outpu
   } else {
     WriteRegionTables(tables, /*with_ar1=*/false, "", stage);
   }
-  WriteFileAtomically(stage->PathFor("summary.json"), SummaryJson(spec, subject));
+  FitRecord record;
+  record.voxels = subject.voxels;
+  record.runs = subject.runs;
+  WriteFileAtomically(stage->PathFor("fit_params.bin"), SerializeFitRecord(record));
+  WriteFileAtomically(stage->PathFor("summary.json"), SummaryJson(spec, subject, fingerprint));
 }
 
 }  // namespace boldsum

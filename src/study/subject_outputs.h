@@ -5,12 +5,17 @@
 
 #include <string>
 
+#include "study/fingerprint.h"
 #include "study/output_stage.h"
 #include "study/subject_fit.h"
 
 namespace boldsum {
 
-void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject, OutputStage* stage);
+// Also writes fit_params.bin (the saved fit) and records `fingerprint` in summary.json.
+// Everything written is a function of the fingerprinted inputs and the contrasts, so a
+// re-run that recomputes or skips gives the same bytes as a clean fit.
+void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject,
+                         const SubjectFingerprint& fingerprint, OutputStage* stage);
 
 // "design.tsv" and "design.svg" of a run, under run-<k>/ of `stage` or any folder.
 void WriteRunDesign(const RunPlan& run, const std::string& subject_id,
