@@ -9,7 +9,6 @@
 #include <cstdio>
 #include <filesystem>
 #include <random>
-#include <sstream>
 
 #include "boldsum/design.h"
 #include "boldsum/error.h"
@@ -73,7 +72,9 @@ class Random {
   double Uniform() { return static_cast<double>(engine_() >> 11) * 0x1.0p-53; }  // [0, 1)
   double Uniform(double lo, double hi) { return lo + (hi - lo) * Uniform(); }
   int Index(int n) { return std::min(n - 1, static_cast<int>(Uniform() * n)); }  // [0, n)
-  int Tenths(double lo_s, double hi_s) { return static_cast<int>(std::lround(10 * Uniform(lo_s, hi_s))); }
+  int Tenths(double lo_s, double hi_s) {  // a time in [lo_s, hi_s] in whole tenths of a second
+    return static_cast<int>(std::lround(10 * Uniform(lo_s, hi_s)));
+  }
 
   double Normal() {
     if (has_spare_) {
@@ -184,7 +185,8 @@ std::vector<Voxel> BrainVoxels(const SubjectTruth& truth) {
         if (radius > 1.0) continue;
         Voxel v;
         v.index = LinearIndex(x, y, z);
-        const double texture = 0.05 * std::sin(0.3 * x) * std::cos(0.25 * y) + 0.03 * (z - kCz) / kAz;
+        const double texture =
+            0.05 * std::sin(0.3 * x) * std::cos(0.25 * y) + 0.03 * (z - kCz) / kAz;
         v.baseline = 1000.0 * truth.scale * (1.0 + texture) * (1.0 - 0.1 * std::pow(radius, 6));
         v.rho = 0.1 + 0.4 * (1.0 - radius * radius);
         v.leak = 0.01 * std::pow(radius, 4);
@@ -278,10 +280,11 @@ RunMotion DrawMotion(Random& random) {
   return m;
 }
 
-// One run: images, tables and the design-built signal. Returns nothing; writes under
-// `folder` (the subject's folder inside the study being assembled).
-// `values` (grid voxels x volumes) must be zero outside the brain; brain voxels are
-// overwritten, so one buffer serves every run.
+// Writes one run's four files under `folder`. Signal of a brain voxel, as a fraction of
+// its baseline: planted task effects + drift + motion leak + global fluctuation; then
+// AR(1) noise is added, volumes with a sudden move dip by 3%, and values are rounded to
+// whole numbers. `values` (grid voxels x volumes) must be zero outside the brain; brain
+// voxels are overwritten, so one buffer serves every run.
 void WriteRun(const fs::path& folder, const std::string& stem, const SubjectTruth& truth,
               const std::vector<Voxel>& voxels, Random& random, std::vector<float>* values) {
   const RunEvents events = DrawEvents(random);
@@ -335,7 +338,9 @@ void WriteRun(const fs::path& folder, const std::string& stem, const SubjectTrut
       double change = global[k] + slope * ramp[k] + swing * slow_wave[k];
       for (int a = 0; a < 3; ++a) change += v.leak * v.outward[a] * motion.shift[k][a];
       if (v.region >= 0) {
-        for (int c = 0; c < kConditions; ++c) change += truth.percent[v.region][c] / 100 * task(k, c);
+        for (int c = 0; c < kConditions; ++c) {
+          change += truth.percent[v.region][c] / 100 * task(k, c);
+        }
       }
       double value = v.baseline * (1.0 + change) + noise[k];
       if (k > 0 && motion.displacement[k] > 0.9) value *= 0.97;  // spin-history-like dip
@@ -404,11 +409,13 @@ const char kReadme[] =
     "Eight volunteers (s01..s08), two runs each of 180 volumes, TR 2 s, listen to familiar\n"
     "(melody_known) and new (melody_new) melodies of 8-12 s and press a button 0.3-0.8 s\n"
     "after each melody ends (press). Images: 40x48x36 voxels of 3 mm, an ellipsoid brain\n"
-    "of intensity about 1000 (mask.nii.gz), AR(1) noise (rho 0.1-0.5, 1% of baseline), slow\n"
-    "drift, head motion (confounds; a few moves above 0.9 mm that are censored) leaking\n"
-    "into the signal. Regions (spheres of 81 voxels; centre voxel x,y,z): left_auditory\n"
-    "7,22,17; right_auditory 32,22,17; motor 13,27,27; control_region 20,8,14.\n"
-    "sXX/run-K_regions.tsv holds each region's mean per volume.\n"
+    "of intensity about 1000 (mask.nii.gz), AR(1) noise (rho 0.1-0.5, 1% of baseline), a\n"
+    "global fluctuation (0.2%), slow drift, and head motion (the confounds; a few sudden\n"
+    "moves above 0.9 mm, which are censored) leaking into the signal. Regions, spheres of\n"
+    "81 voxels around the centre voxel x,y,z: left_auditory 7,22,17; right_auditory\n"
+    "32,22,17; motor 13,27,27; control_region 20,8,14. sXX/run-K_regions.tsv holds each\n"
+    "region's mean per volume. Both auditory regions respond to melodies, more to familiar\n"
+    "ones in 6 of the 8 volunteers; the motor region responds to the presses.\n"
     "\n"
     "truth.tsv: planted effects per subject, region and condition; true_beta in data units\n"
     "per unit of sustained activation (what a fit estimates for the region's mean),\n"
@@ -416,7 +423,8 @@ const char kReadme[] =
     "melody_known - melody_new difference in data units.\n"
     "\n"
     "Fit the images:          boldsum fit demo.yaml\n"
-    "Fit the region tables:   boldsum fit demo_roi.yaml\n";
+    "Fit the region tables:   boldsum fit demo_roi.yaml\n"
+    "Compare with the truth:  boldsum demo-compare .\n";
 
 std::atomic<int> g_folder_counter{0};
 
@@ -505,7 +513,8 @@ void WriteDemoStudy(const std::string& dir, uint64_t seed) {
   if (!target.has_filename()) target = target.parent_path();
   if (fs::exists(target, ec)) {
     if (!fs::is_directory(target, ec)) {
-      throw Error(dir + ": exists and is not a folder (the demo study needs a new or empty folder)");
+      throw Error(dir +
+                  ": exists and is not a folder (the demo study needs a new or empty folder)");
     }
     if (!fs::is_empty(target, ec)) {
       throw Error(dir + ": exists and is not empty (the demo study needs a new or empty folder)");

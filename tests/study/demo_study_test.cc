@@ -176,7 +176,8 @@ void CheckRun(const fs::path& study, const std::string& stem, const ImageGeometr
   EXPECT_EQ(confounds.na_cells, (std::vector<std::pair<int, int>>{{0, 3}}));
   *largest = 0.0;
   for (int k = 1; k < confounds.values.rows(); ++k) {
-    const double step = (confounds.values.row(k).head(3) - confounds.values.row(k - 1).head(3)).norm();
+    const double step =
+        (confounds.values.row(k).head(3) - confounds.values.row(k - 1).head(3)).norm();
     EXPECT_NEAR(confounds.values(k, 3), step, 0.6e-4) << "volume " << k;
     *largest = std::max(*largest, confounds.values(k, 3));
   }
@@ -336,12 +337,14 @@ TEST(DemoStudy, IsCompleteLoadableAndConsistent) {
   for (int s = 1; s <= 8; ++s) {
     for (int r = 1; r <= 2; ++r) {
       const std::string stem = "s0" + std::to_string(s) + "/run-" + std::to_string(r);
-      EXPECT_EQ(ReadBytes(example / (stem + "_events.tsv")), ReadBytes(study / (stem + "_events.tsv")));
+      EXPECT_EQ(ReadBytes(example / (stem + "_events.tsv")),
+                ReadBytes(study / (stem + "_events.tsv")));
       EXPECT_EQ(ReadBytes(example / (stem + "_confounds.tsv")),
                 ReadBytes(study / (stem + "_confounds.tsv")));
       const NumericTable committed =
           ReadNumericTable((example / (stem + "_regions.tsv")).string(), false);
-      const NumericTable written = ReadNumericTable((study / (stem + "_regions.tsv")).string(), false);
+      const NumericTable written =
+          ReadNumericTable((study / (stem + "_regions.tsv")).string(), false);
       EXPECT_EQ(committed.names, written.names);
       ASSERT_EQ(committed.values.rows(), written.values.rows());
       EXPECT_LE((committed.values - written.values).cwiseAbs().maxCoeff(), 0.5) << stem;
