@@ -1,0 +1,147 @@
+"""Workflow test (not statistical): the Snakefile from `boldsum export snakemake`, run by
+Debian's Snakemake (/usr/bin/snakemake, an outside workflow engine), gives byte for byte
+the outputs of a direct `boldsum fit`, and a second run does nothing.
+
+Also checked: the study lives under a folder whose name has a space and a quote (the
+generated shell commands must quote); after an edit of the config that changes nothing
+in the model, Snakemake reruns every subject job but boldsum skips them and leaves their
+files untouched (the reason the jobs' output is a stamp, see the Snakefile); a subject
+folder removed by hand is fitted again, by the binary named in BOLDSUM.
+
+Uses the demo study's ROI config (demo_roi.yaml: 8 subjects, 2 runs each) to stay fast.
+"""
+import filecmp
+import os
+import shutil
+import subprocess
+import sys
+import tempfile
+
+BIN = os.environ["BOLDSUM_BIN"]
+SNAKEMAKE = "/usr/bin/snakemake"
+failures = []
+
+
+def check(name, ok, detail=""):
+    print(f"{'ok' if ok else 'FAILED'}: {name}{': ' + detail if detail and not ok else ''}")
+    if not ok:
+        failures.append(name)
+
+
+def run(args, cwd=None, env=None):
+    result = subprocess.run(args, cwd=cwd, env=env, stdout=subprocess.PIPE,
+                            stderr=subprocess.STDOUT, text=True)
+    if result.returncode != 0:
+        print(result.stdout)
+        sys.exit(f"command failed ({result.returncode}): {' '.join(args)}")
+    return result.stdout
+
+
+def tree(root, skip=()):
+    """Relative paths of every file under root, except names in skip."""
+    files = set()
+    for folder, _, names in os.walk(root):
+        for name in names:
+            if name not in skip:
+                files.add(os.path.relpath(os.path.join(folder, name), root))
+    return files
+
+
+def compare_trees(name, ours, reference, skip):
+    ours_files, ref_files = tree(ours, skip), tree(reference, skip)
+    check(f"{name}: same files", ours_files == ref_files,
+          f"only in Snakemake run: {sorted(ours_files - ref_files)}; "
+          f"only in direct fit: {sorted(ref_files - ours_files)}")
+    differing = [f for f in sorted(ours_files & ref_files)
+                 if not filecmp.cmp(os.path.join(ours, f), os.path.join(reference, f),
+                                    shallow=False)]
+    check(f"{name}: {len(ours_files & ref_files)} files byte-identical", not differing,
+          f"differ: {differing}")
+
+
+def jobs_run(log, rule):
+    return log.count(f"rule {rule}:") + log.count(f"localrule {rule}:")
+
+
+def copy_demo_roi_study(study):
+    """The ROI part of `boldsum demo` (8 subjects, 2 runs each), as committed in
+    examples/melodies-roi (tests/study/demo_study_test.cc checks it equals the demo's);
+    copying it spares writing the demo's 100 MB of images."""
+    source = os.path.join(os.environ["BOLDSUM_SOURCE_DIR"], "examples", "melodies-roi")
+    if os.path.exists(os.path.join(source, "demo_roi.yaml")):
+        shutil.copytree(source, study)
+    else:
+        run([BIN, "demo", study])
+
+
+def main():
+    if not os.access(SNAKEMAKE, os.X_OK):
+        sys.exit(f"{SNAKEMAKE} is missing: install Debian's package with "
+                 "`apt-get install snakemake` (scripts/install-deps test does)")
+    top = tempfile.mkdtemp(prefix="boldsum export snake ")
+    try:
+        study = os.path.join(top, "melody's study")
+        copy_demo_roi_study(study)
+        config = os.path.join(study, "demo_roi.yaml")
+        out = os.path.join(top, "results via snakemake")
+        workdir = os.path.join(top, "workflow")
+        os.makedirs(workdir)
+        snakefile = os.path.join(workdir, "Snakefile")
+        run([BIN, "export", "snakemake", config, "-o", snakefile, "--out", out, "--threads", "2"])
+
+        log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir)
+        check("first run: one fit job per subject", jobs_run(log, "fit_subject") == 8,
+              f"{jobs_run(log, 'fit_subject')} jobs")
+        check("first run: one gather job", jobs_run(log, "gather") == 1)
+
+        direct = os.path.join(top, "results direct")
+        run([BIN, "fit", config, "--out", direct, "--quiet"])
+        check("direct fit gathered", os.path.exists(os.path.join(direct, "pool-ready",
+                                                                 "subjects.tsv")))
+        # .workflow-stamp exists only in the Snakemake run; .checksums.tsv is boldsum's
+        # cache of input checksums keyed by modification time, not a result.
+        skip = {".workflow-stamp", ".checksums.tsv"}
+        compare_trees("Snakemake vs direct fit", out, direct, skip)
+
+        log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir)
+        check("second run: nothing to be done",
+              "Nothing to be done" in log and jobs_run(log, "fit_subject") == 0, log)
+
+        # A comment added to the config: every subject job reruns (the config is newer
+        # than the stamps) but boldsum finds each subject up to date and skips it.
+        summary = os.path.join(out, "s01", "summary.json")
+        before = os.stat(summary).st_mtime_ns
+        with open(config, "a") as f:
+            f.write("# edited after the first run\n")
+        log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir)
+        check("after a config comment: subject jobs rerun", jobs_run(log, "fit_subject") == 8)
+        check("after a config comment: boldsum skipped s01 (summary.json untouched)",
+              os.stat(summary).st_mtime_ns == before)
+        log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir)
+        check("after the rerun: nothing to be done", "Nothing to be done" in log, log)
+
+        # A subject folder removed by hand takes its stamp along: only it is refitted,
+        # by the binary BOLDSUM names (a wrapper that records its calls).
+        shutil.rmtree(os.path.join(out, "s03"))
+        calls = os.path.join(top, "calls.txt")
+        wrapper = os.path.join(top, "boldsum wrapper.sh")
+        with open(wrapper, "w") as f:
+            f.write(f'#!/bin/bash\nprintf "%s\\n" "$*" >> "{calls}"\nexec "{BIN}" "$@"\n')
+        os.chmod(wrapper, 0o755)
+        env = dict(os.environ, BOLDSUM=wrapper)
+        log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir, env=env)
+        with open(calls) as f:
+            recorded = f.read().splitlines()
+        check("removed subject refitted alone, then gathered, through BOLDSUM",
+              len(recorded) == 2 and "--subject=s03" in recorded[0]
+              and recorded[1].startswith("gather "), str(recorded))
+        compare_trees("after refitting s03", out, direct, skip)
+    finally:
+        shutil.rmtree(top, ignore_errors=True)
+    if failures:
+        sys.exit(f"{len(failures)} check(s) failed: {failures}")
+    print("all Snakemake workflow checks passed")
+
+
+if __name__ == "__main__":
+    main()
