@@ -23,7 +23,8 @@ const char* PoolMethodName(PoolMethod method);  // "mixed", "ols", "fixed"
 
 struct RemlOptions {
   double relative_tolerance = 1e-10;  // stop when |step| <= tolerance * tau2
-  int max_iterations = 100;           // a voxel that needs more is flagged not converged
+  int max_iterations = 100;           // Newton steps after the scan; a voxel that needs
+                                      // more is flagged not converged
 };
 
 // The fit at one voxel.
@@ -34,7 +35,8 @@ struct PooledFit {
   double sigma2 = 0.0;         // kOls: RSS / (n - k); otherwise NaN
   Eigen::VectorXd beta;        // k
   Eigen::MatrixXd covariance;  // k x k; (Z'WZ)^-1, or sigma2 (Z'Z)^-1 for kOls
-  int iterations = 0;          // REML steps; 0 at the tau2 = 0 boundary and for kOls/kFixed
+  int iterations = 0;          // kMixed: likelihood evaluations after the one at tau2 = 0
+                               // (scan and Newton steps); 0 for kOls/kFixed
   bool converged = true;       // false when max_iterations ran out (result still reported)
 };
 

@@ -9,6 +9,7 @@
 
 #include "boldsum/io.h"
 #include "boldsum/pool.h"
+#include "pool/group_config.h"
 #include "pool/group_design.h"
 #include "pool/pool_inputs.h"
 
@@ -314,6 +315,13 @@ void ReadSpec(const Reader& reader, const YAML::Node& root, GroupSpec* spec,
 }
 
 }  // namespace
+
+std::vector<std::string> GroupConfigKeyPaths() {
+  std::vector<std::string> paths = kTopKeys;
+  for (const std::string& key : kDesignKeys) paths.push_back("design." + key);
+  for (const std::string& key : kFactorKeys) paths.push_back("design.factor." + key);
+  return paths;
+}
 
 LoadedGroupConfig LoadGroupConfig(const std::string& path) {
   LoadedGroupConfig loaded;

@@ -1,5 +1,6 @@
 #include "pool/pooled_fitter.h"
 
+#include <algorithm>
 #include <cmath>
 #include <limits>
 
@@ -11,6 +12,10 @@ constexpr double kInf = std::numeric_limits<double>::infinity();
 // Columns of Z whose pivot falls below this fraction of the largest pivot count as
 // dependent, and the voxel is not fitted (the contrasts would not be estimable).
 constexpr double kRankThreshold = 1e-10;
+// REML: ratio of the scan grid in tau2 + c, and the largest Newton step in
+// log(tau2 + c) (see PooledFitter::SolveReml and Search).
+constexpr double kGridRatio = 1.6487212707001282;  // e^(1/2)
+constexpr double kMaxLogStep = 3.0;
 
 void MarkInvalid(int n, int k, PooledFit* out) {
   out->valid = false;
@@ -165,7 +170,16 @@ PooledFitter::Derivatives PooledFitter::Evaluate(double tau2) {
   bc_.noalias() = b_ * c_;
   trace_pp += (bc_.array() * bc_.transpose().array()).sum();
   const double ypppy = wpp - g_.dot(b_ * g_);
+  // Restricted log-likelihood up to a constant: -1/2 [log|V| + log|Q'WQ| + y'Py], with
+  // y'Py = y'p (log|Z'WZ| differs from log|Q'WQ| by a constant).
+  double log_det_v = 0, ypy = 0;
+  for (int i = 0; i < m; ++i) {
+    log_det_v -= std::log(w_[i]);
+    ypy += y_[i] * p_[i];
+  }
+  const double log_det_a = 2 * llt_.matrixLLT().diagonal().array().log().sum();
   Derivatives d;
+  d.log_likelihood = -0.5 * (log_det_v + log_det_a + ypy);
   d.score = 0.5 * (ypy2 - trace_p);
   d.expected = 0.5 * trace_pp;
   d.observed = ypppy - 0.5 * trace_pp;
@@ -173,46 +187,99 @@ PooledFitter::Derivatives PooledFitter::Evaluate(double tau2) {
 }
 
 // REML for tau2 (Harville 1977, JASA 72:320-338; for the random-effects meta-analysis
-// form and its Fisher scoring, Viechtbauer 2005, J. Educ. Behav. Stat. 30:261-293).
-// The maximum lies at tau2 = 0 when the score there is <= 0. Otherwise the score root
-// is found by Newton steps (observed information; expected information where the
-// observed one is not positive, which still points uphill) kept inside a bracket
-// [lo, hi] with score(lo) > 0 > score(hi), bisecting whenever a step leaves it.
-// Stops when |step| <= relative_tolerance * tau2.
+// form, Viechtbauer 2005, J. Educ. Behav. Stat. 30:261-293): the maximum of the
+// restricted likelihood over tau2 >= 0. It need not be unimodal when the v_i differ
+// widely, so the likelihood is first scanned on a geometric grid of tau2 + c
+// (c = min v, ratio kGridRatio) from tau2 = 0 up to the bound U = s2 + max(v) beyond
+// which the score is negative (s2 = RSS_ols / (n - k); see below). At the best grid
+// point: tau2 = 0 when that is tau2 = 0 and the score there is <= 0 (the boundary);
+// otherwise the neighbour on its uphill side closes a bracket [lo, hi] with
+// score(lo) > 0 > score(hi), and Search refines the root inside it.
+// The bound: with P = W^1/2 M W^1/2 (M an orthogonal projection of rank n - k),
+// y'PPy <= w_max y'Py <= w_max^2 RSS_ols and tr P >= w_min (n - k), so the score
+// (y'PPy - tr P) / 2 < 0 whenever (tau2 + min v)^2 > s2 (tau2 + max v), which holds for
+// every tau2 >= s2 + max v.
+// iterations counts likelihood evaluations after the one at 0 (grid and Newton steps).
 double PooledFitter::SolveReml(int* iterations, bool* converged) {
   *iterations = 0;
   *converged = true;
-  Derivatives d = Evaluate(0.0);
-  if (!(d.score > 0)) return 0.0;
   const int m = static_cast<int>(y_.size());
-  // Start from the moment guess s2 - mean(v) (exact when all v_i are equal), else from 0.
   gamma_.noalias() = q_.transpose() * y_;
   const double s2 = (y_ - q_ * gamma_).squaredNorm() / (m - k_);
-  double x = s2 - v_.mean();
-  double lo = 0.0, hi = kInf;
-  if (x > 0) {
-    d = Evaluate(x);
-  } else {
-    x = 0.0;
+  const double c = v_.minCoeff();
+  const double upper = s2 + v_.maxCoeff();
+  grid_x_.clear();
+  grid_d_.clear();
+  grid_x_.push_back(0.0);
+  grid_d_.push_back(Evaluate(0.0));
+  size_t best = 0;
+  for (double s = c * kGridRatio; grid_x_.back() < upper; s *= kGridRatio) {
+    grid_x_.push_back(s - c);
+    grid_d_.push_back(Evaluate(s - c));
+    ++*iterations;
+    if (grid_d_.back().log_likelihood > grid_d_[best].log_likelihood) best = grid_x_.size() - 1;
   }
-  for (int it = 1; it <= options_.max_iterations; ++it) {
+  const Derivatives& at_best = grid_d_[best];
+  if (best == 0 && !(at_best.score > 0)) return 0.0;
+  double lo, hi;
+  if (at_best.score > 0) {
+    lo = grid_x_[best];
+    hi = best + 1 < grid_x_.size() ? grid_x_[best + 1] : kInf;
+  } else {
+    lo = grid_x_[best - 1];
+    hi = grid_x_[best];
+  }
+  const double x = Search(grid_x_[best], at_best, lo, hi, iterations, converged);
+  if (last_likelihood_ < at_best.log_likelihood - 1e-12 * std::abs(at_best.log_likelihood)) {
+    // Only when the bracket's lower end had no positive score (a maximum narrower than
+    // the grid step), beyond rounding: keep the best point seen and say so.
+    *converged = false;
+    return grid_x_[best];
+  }
+  return x;
+}
+
+// Refines a score root inside [lo, hi] from x (with its derivatives d); lo and hi move
+// to every new point by the sign of its score. Newton steps are taken in
+// theta = log(tau2 + c), c = min(v): with all v_i equal the restricted likelihood is
+// concave in theta. There l_theta = s S and l_theta_theta = s S - s^2 J (s = tau2 + c,
+// S the score, J the observed information), so the step is S / (s J - S); where that
+// denominator is not positive, S / (s I) with the expected information I (uphill as
+// well). A step that leaves the bracket is replaced by its midpoint in theta. Stops when
+// |step| <= relative_tolerance * tau2. Leaves the log-likelihood at the result in
+// last_likelihood_.
+double PooledFitter::Search(double x, Derivatives d, double lo, double hi, int* iterations,
+                            bool* converged) {
+  const double c = v_.minCoeff();
+  for (int it = 1;; ++it) {
     if (d.score > 0) {
       lo = x;
     } else if (d.score < 0) {
       hi = x;
     } else {
-      return x;
+      break;
     }
-    const double step = d.score / (d.observed > 0 ? d.observed : d.expected);
-    double next = x + step;
-    if (!(next > lo && next < hi)) next = 0.5 * (lo + hi);
-    *iterations = it;
+    if (it > options_.max_iterations) {
+      *converged = false;
+      break;
+    }
+    const double s = x + c;
+    const double curvature = s * d.observed - d.score;
+    double step = d.score / (curvature > 0 ? curvature : s * d.expected);
+    step = std::clamp(step, -kMaxLogStep, kMaxLogStep);
+    double next = s * std::exp(step) - c;
+    if (!(next > lo && next < hi)) {
+      // A step too small to move x off a bracket end has converged.
+      if (hi == kInf || next == x) break;
+      next = std::sqrt((lo + c) * (hi + c)) - c;
+    }
+    ++*iterations;
     const double change = std::abs(next - x);
     x = next;
-    if (change <= options_.relative_tolerance * x) return x;
     d = Evaluate(x);
+    if (change <= options_.relative_tolerance * x) break;
   }
-  *converged = false;
+  last_likelihood_ = d.log_likelihood;
   return x;
 }
 

@@ -18,14 +18,19 @@ class PooledFitter {
   void Fit(const double* y, const double* v, PooledFit* out);
 
  private:
-  // Restricted-likelihood derivatives at one tau2 (Harville 1977, JASA 72:320-338):
-  // with P = W - W Q (Q'WQ)^-1 Q'W, score = (y'PPy - tr P) / 2, expected information
-  // tr(PP) / 2, observed information y'PPPy - tr(PP) / 2.
+  // The restricted log-likelihood and its derivatives at one tau2 (Harville 1977, JASA
+  // 72:320-338): with P = W - W Q (Q'WQ)^-1 Q'W, score = (y'PPy - tr P) / 2, expected
+  // information tr(PP) / 2, observed information y'PPPy - tr(PP) / 2.
   struct Derivatives {
-    double score = 0, expected = 0, observed = 0;
+    double score = 0, expected = 0, observed = 0, log_likelihood = 0;
   };
   Derivatives Evaluate(double tau2);
   double SolveReml(int* iterations, bool* converged);
+  double Search(double x, Derivatives d, double lo, double hi, int* iterations,
+                bool* converged);
+  double last_likelihood_ = 0;
+  std::vector<double> grid_x_;       // REML scan points
+  std::vector<Derivatives> grid_d_;
   void WeightedFit(const Eigen::VectorXd& w, PooledFit* out);
   bool PrepareBasis();
 

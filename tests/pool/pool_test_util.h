@@ -39,15 +39,24 @@ inline Eigen::VectorXd RandomEstimates(const Eigen::MatrixXd& z, const Eigen::Ve
 
 // The restricted log-likelihood of Harville (1977, JASA 72:320-338) up to a constant:
 // -1/2 [log|V| + log|Z'V^-1 Z| + y'Py], V = diag(tau2 + v), P = V^-1 - V^-1 Z (Z'V^-1 Z)^-1 Z'V^-1.
+// Evaluated through the QR decomposition of V^-1/2 Z = QR, which stays accurate when the
+// variances span many orders of magnitude: log|Z'V^-1 Z| = 2 sum log|R_jj| and
+// y'Py = |(I - QQ') V^-1/2 y|^2.
 inline double RestrictedLogLikelihood(const Eigen::MatrixXd& z, const Eigen::VectorXd& y,
                                       const Eigen::VectorXd& v, double tau2) {
-  const Eigen::VectorXd w = (v.array() + tau2).inverse();
-  const Eigen::MatrixXd winv = w.asDiagonal();
-  const Eigen::MatrixXd a = z.transpose() * winv * z;
-  const Eigen::MatrixXd p = winv - winv * z * a.inverse() * z.transpose() * winv;
-  const double log_det_v = -w.array().log().sum();
-  const double log_det_a = std::log(a.determinant());
-  return -0.5 * (log_det_v + log_det_a + y.dot(p * y));
+  const Eigen::VectorXd root_w = (v.array() + tau2).rsqrt();
+  const Eigen::MatrixXd scaled_z = root_w.asDiagonal() * z;
+  const Eigen::VectorXd scaled_y = root_w.cwiseProduct(y);
+  const Eigen::HouseholderQR<Eigen::MatrixXd> qr(scaled_z);
+  const Eigen::MatrixXd q =
+      qr.householderQ() * Eigen::MatrixXd::Identity(z.rows(), z.cols());
+  const Eigen::VectorXd residual = scaled_y - q * (q.transpose() * scaled_y);
+  double log_det_a = 0;
+  for (Eigen::Index j = 0; j < z.cols(); ++j) {
+    log_det_a += 2 * std::log(std::abs(qr.matrixQR()(j, j)));
+  }
+  const double log_det_v = (v.array() + tau2).log().sum();
+  return -0.5 * (log_det_v + log_det_a + residual.squaredNorm());
 }
 
 }  // namespace boldsum
