@@ -22,7 +22,7 @@ struct WorkflowOptions {
   int time_minutes = 240;    // wall time per job in minutes (Snakemake runtime, --time)
   std::string partition;     // SLURM partition; "" means the cluster's default
   std::string account;       // SLURM account; "" means the user's default
-  int max_running = 0;       // SLURM: array tasks running at once; 0 means no limit
+  int max_running = 0;       // SLURM: tasks of each array running at once; 0: no limit
   // SLURM: tasks per submitted array. Array indices must stay below the cluster's
   // MaxArraySize (1001 unless the site changed it, as recalled from the slurm.conf
   // manual), so larger studies are queued as several arrays with an index offset.
