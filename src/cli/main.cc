@@ -81,7 +81,7 @@ void AddExportCommands(CLI::App* app, std::string* config, boldsum::WorkflowOpti
   commands->slurm->add_option("--account", workflow->account,
                               "SLURM account (default: your default account)");
   commands->slurm->add_option("--max-running", workflow->max_running,
-                              "array tasks running at once (default: no limit)")
+                              "tasks of each array running at once (default: no limit)")
       ->check(CLI::NonNegativeNumber);
   commands->slurm->add_option("--array-size", workflow->array_size,
                               "tasks per array; larger studies are queued as several arrays "
