@@ -94,6 +94,10 @@ struct StudySpec {
   std::string mask_path;  // "" means the automatic mask
   std::vector<SubjectSpec> subjects;
   std::string output_dir;  // absolute; default <config_dir>/results
+  // Only when the subjects were found in a BIDS dataset (subjects_from): the line
+  // "found N subjects, M runs (task ...) in <folder>", then one "skipped <what>: <why>"
+  // line per bold image or subject left out. Empty when the subjects are listed.
+  std::vector<std::string> discovery_report;
 };
 
 struct LoadedConfig {

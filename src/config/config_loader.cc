@@ -20,6 +20,11 @@ void ReadStudy(config::YamlReader& reader, const YAML::Node& document, StudySpec
   const Field root{"", YAML::Node(), document};
   const auto top = reader.Fields(root, config::TopKeys());
   if (!top) return;
+  if (top->count("subjects") == 0 && top->count("subjects_from") == 0) {
+    reader.Error(reader.At(document),
+                 "missing required key 'subjects' (or 'subjects_from' to find the subjects in "
+                 "a BIDS dataset)");
+  }
   auto find = [&](const char* name) -> const Field* {
     const auto it = top->find(name);
     return it == top->end() ? nullptr : &it->second;
@@ -45,8 +50,17 @@ void ReadStudy(config::YamlReader& reader, const YAML::Node& document, StudySpec
   if (const Field* f = find("contrasts")) {
     spec->contrasts = config::ReadContrasts(reader, *f, spec->model, state);
   }
-  if (const Field* f = find("subjects")) {
-    spec->subjects = config::ReadSubjects(reader, *f, spec->model, state);
+  const Field* listed = find("subjects");
+  const Field* found = find("subjects_from");
+  if (listed && found) {
+    reader.Error(reader.At(found->key),
+                 "subjects_from: give either subjects or subjects_from, not both (subjects at "
+                 "line " + std::to_string(reader.At(listed->key).line) + ")");
+  } else if (listed) {
+    spec->subjects = config::ReadSubjects(reader, *listed, spec->model, state);
+  } else if (found) {
+    spec->subjects = config::ReadSubjectsFrom(reader, *found, spec->model, state,
+                                              &spec->discovery_report);
   }
 }
 

@@ -29,7 +29,8 @@ const KeyLevel& TopKeys() {
                                {"censor"},
                                {"contrasts"},
                                {"mask"},
-                               {"subjects", true},
+                               {"subjects"},
+                               {"subjects_from"},
                                {"output"}}};
   return level;
 }
@@ -54,6 +55,18 @@ const KeyLevel& SubjectKeys() {
   return level;
 }
 
+const KeyLevel& SubjectsFromKeys() {
+  static const KeyLevel level{"subjects_from",
+                              {{"bids", true},
+                               {"task", true},
+                               {"session"},
+                               {"space"},
+                               {"desc"},
+                               {"confounds"},
+                               {"derivatives"}}};
+  return level;
+}
+
 const KeyLevel& RunKeys() {
   static const KeyLevel level{"subjects[].runs[]",
                               {{"data", true}, {"events", true}, {"confounds"}}};
@@ -73,8 +86,9 @@ const KeyLevel& InlineOnsetsKeys() {
 }
 
 std::vector<const KeyLevel*> AllKeyLevels() {
-  return {&TopKeys(),     &HrfKeys(), &DriftKeys(),       &CensorKeys(),
-          &SubjectKeys(), &RunKeys(), &InlineEventKeys(), &InlineOnsetsKeys()};
+  return {&TopKeys(),         &HrfKeys(), &DriftKeys(),       &CensorKeys(),
+          &SubjectKeys(),     &RunKeys(), &InlineEventKeys(), &InlineOnsetsKeys(),
+          &SubjectsFromKeys()};
 }
 
 }  // namespace boldsum::config

@@ -31,6 +31,7 @@ const KeyLevel& SubjectKeys();
 const KeyLevel& RunKeys();
 const KeyLevel& InlineEventKeys();   // one event: {onset, duration, amplitude}
 const KeyLevel& InlineOnsetsKeys();  // many events: {onsets, duration, amplitude}
+const KeyLevel& SubjectsFromKeys();  // subjects found in a BIDS dataset
 
 // Every level above, for the reference-file check.
 std::vector<const KeyLevel*> AllKeyLevels();

@@ -38,4 +38,17 @@ std::vector<ContrastSpec> ReadContrasts(YamlReader& reader, const Field& field,
 std::vector<SubjectSpec> ReadSubjects(YamlReader& reader, const Field& field,
                                       const ModelSpec& model, const ModelState& state);
 
+// subjects_from: subjects and runs found in a BIDS dataset (see bids_discovery.h), their
+// events validated like listed ones. `report` gets the discovery report lines.
+std::vector<SubjectSpec> ReadSubjectsFrom(YamlReader& reader, const Field& field,
+                                          const ModelSpec& model, const ModelState& state,
+                                          std::vector<std::string>* report);
+
+// What the model takes from confounds tables ("confounds (a, b) and censoring (c)"); ""
+// when it takes nothing.
+std::string NeedsConfounds(const ModelSpec& model);
+// Reports every column the model takes that the table at `path` lacks, at the header.
+void CheckConfoundsHeader(YamlReader& reader, const ResolvedPath& path,
+                          const SourceLocation& anchor, const ModelSpec& model);
+
 }  // namespace boldsum::config

@@ -22,50 +22,6 @@ bool EndsWith(const std::string& text, const std::string& suffix) {
          text.compare(text.size() - suffix.size(), suffix.size(), suffix) == 0;
 }
 
-// The confounds table must have every column the model takes from it.
-void CheckConfoundsHeader(YamlReader& reader, const ResolvedPath& path,
-                          const SourceLocation& anchor, const ModelSpec& model) {
-  Reporter& reporter = reader.reporter();
-  Table table;
-  try {
-    table = ReadTable(path.shown);
-  } catch (const Error& error) {
-    const std::string prefix = error.where().ToString() + ": ";
-    std::string message = error.what();
-    if (message.compare(0, prefix.size(), prefix) == 0) message = message.substr(prefix.size());
-    reporter.Add(Severity::kError, error.where(), message, anchor);
-    return;
-  }
-  std::vector<std::pair<std::string, std::string>> needed;  // column, where it is named
-  for (const std::string& name : model.confounds) needed.emplace_back(name, "confounds");
-  if (model.censor) needed.emplace_back(model.censor->column, "censor.column");
-  for (const auto& [column, source] : needed) {
-    if (table.ColumnIndex(column) >= 0) continue;
-    // Suggest only columns the model does not already take.
-    std::vector<std::string> unused;
-    for (const std::string& name : table.header) {
-      const bool taken = std::any_of(needed.begin(), needed.end(),
-                                     [&](const auto& need) { return need.first == name; });
-      if (!taken) unused.push_back(name);
-    }
-    const std::string near = ClosestMatch(column, unused);
-    reporter.Add(Severity::kError, SourceLocation{table.path, 1, 0},
-                 "column '" + column + "' (from " + source + ") is not in the header" +
-                     (near.empty() ? "" : " (did you mean '" + near + "'?)"),
-                 anchor);
-  }
-}
-
-std::string NeedsConfounds(const ModelSpec& model) {
-  std::string needs;
-  if (!model.confounds.empty()) needs = "confounds (" + JoinNames(model.confounds) + ")";
-  if (model.censor) {
-    needs +=
-        (needs.empty() ? "" : " and ") + std::string("censoring (") + model.censor->column + ")";
-  }
-  return needs;
-}
-
 std::optional<RunSpec> ReadRun(YamlReader& reader, const Field& field, const ModelSpec& model,
                                const ModelState& state) {
   const auto fields = reader.Fields(field, RunKeys());
@@ -128,6 +84,50 @@ std::optional<RunSpec> ReadRun(YamlReader& reader, const Field& field, const Mod
 }
 
 }  // namespace
+
+// The confounds table must have every column the model takes from it.
+void CheckConfoundsHeader(YamlReader& reader, const ResolvedPath& path,
+                          const SourceLocation& anchor, const ModelSpec& model) {
+  Reporter& reporter = reader.reporter();
+  Table table;
+  try {
+    table = ReadTable(path.shown);
+  } catch (const Error& error) {
+    const std::string prefix = error.where().ToString() + ": ";
+    std::string message = error.what();
+    if (message.compare(0, prefix.size(), prefix) == 0) message = message.substr(prefix.size());
+    reporter.Add(Severity::kError, error.where(), message, anchor);
+    return;
+  }
+  std::vector<std::pair<std::string, std::string>> needed;  // column, where it is named
+  for (const std::string& name : model.confounds) needed.emplace_back(name, "confounds");
+  if (model.censor) needed.emplace_back(model.censor->column, "censor.column");
+  for (const auto& [column, source] : needed) {
+    if (table.ColumnIndex(column) >= 0) continue;
+    // Suggest only columns the model does not already take.
+    std::vector<std::string> unused;
+    for (const std::string& name : table.header) {
+      const bool taken = std::any_of(needed.begin(), needed.end(),
+                                     [&](const auto& need) { return need.first == name; });
+      if (!taken) unused.push_back(name);
+    }
+    const std::string near = ClosestMatch(column, unused);
+    reporter.Add(Severity::kError, SourceLocation{table.path, 1, 0},
+                 "column '" + column + "' (from " + source + ") is not in the header" +
+                     (near.empty() ? "" : " (did you mean '" + near + "'?)"),
+                 anchor);
+  }
+}
+
+std::string NeedsConfounds(const ModelSpec& model) {
+  std::string needs;
+  if (!model.confounds.empty()) needs = "confounds (" + JoinNames(model.confounds) + ")";
+  if (model.censor) {
+    needs +=
+        (needs.empty() ? "" : " and ") + std::string("censoring (") + model.censor->column + ")";
+  }
+  return needs;
+}
 
 std::vector<SubjectSpec> ReadSubjects(YamlReader& reader, const Field& field,
                                       const ModelSpec& model, const ModelState& state) {

@@ -37,7 +37,8 @@ TEST(ConfigErrors, MissingAndEmptyConfigFiles) {
   EXPECT_EQ(dir.LoadMessages("- tr: 2\n"),
             Messages{"D/study.yaml:1:1: error: expected a mapping with keys version, tr, "
                      "slice_reference, hrf, drift, autocorrelation, conditions, ignore, "
-                     "confounds, censor, contrasts, mask, subjects, output, got a list"});
+                     "confounds, censor, contrasts, mask, subjects, subjects_from, output, "
+                     "got a list"});
 }
 
 TEST(ConfigErrors, UnknownKeysAtEveryLevelWithSuggestion) {
@@ -67,7 +68,7 @@ TEST(ConfigErrors, UnknownKeysAtEveryLevelWithSuggestion) {
                 "D/study.yaml:5:32: error: censor: unknown key 'abve' (did you mean 'above'?)",
                 "D/study.yaml:8:1: error: unknown key 'colour'; valid keys: version, tr, "
                 "slice_reference, hrf, drift, autocorrelation, conditions, ignore, confounds, "
-                "censor, contrasts, mask, subjects, output",
+                "censor, contrasts, mask, subjects, subjects_from, output",
                 "D/study.yaml:11:5: error: subjects[0]: unknown key 'rnus' (did you mean 'runs'?)",
                 "D/study.yaml:13:9: error: subjects[0].runs[0]: no confounds file, but the model "
                 "needs one for confounds (shift_x)",
@@ -188,7 +189,8 @@ TEST(ConfigErrors, MissingRequiredKeys) {
   EXPECT_EQ(dir.LoadMessages("slice_reference: 0.5\n"),
             (Messages{"D/study.yaml:1:1: error: missing required key 'tr'",
                       "D/study.yaml:1:1: error: missing required key 'conditions'",
-                      "D/study.yaml:1:1: error: missing required key 'subjects'"}));
+                      "D/study.yaml:1:1: error: missing required key 'subjects' (or "
+                      "'subjects_from' to find the subjects in a BIDS dataset)"}));
   EXPECT_EQ(dir.LoadMessages("tr: 2\n"
                              "conditions: [melody_known, melody_new, press]\n"
                              "subjects:\n"
