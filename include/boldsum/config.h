@@ -92,6 +92,9 @@ struct StudySpec {
   ModelSpec model;
   std::vector<ContrastSpec> contrasts;
   std::string mask_path;  // "" means the automatic mask
+  // Absolute path of the `participants` table (participant_id plus columns copied into
+  // OUT/pool-ready/subjects.tsv); "" when not given.
+  std::string participants_path;
   std::vector<SubjectSpec> subjects;
   std::string output_dir;  // absolute; default <config_dir>/results
   // Only when the subjects were found in a BIDS dataset (subjects_from): the line

@@ -41,6 +41,18 @@ void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& 
 // number of subjects that are not up to date.
 int PrintStudyStatus(const StudySpec& spec, const StudyOptions& options, std::ostream& out);
 
+// Writes OUT/pool-ready/ (README "Pool-ready stacks") from every subject of the config,
+// in config order (options.subjects is ignored: the stacks describe the whole study).
+// Images: per t contrast 4D float32 <contrast>.estimate.nii.gz and .variance.nii.gz
+// (volume i = row i of subjects.tsv, NaN where subject i has no value or cannot estimate
+// the contrast), the intersection mask.nii.gz; region tables: summaries.tsv in long form.
+// Both: subjects.tsv (subject, dof_<contrast>, then the participants table's columns).
+// F contrasts are not stacked. Every subject must have up-to-date fit outputs, all of one
+// kind and (images) on one grid and orientation; otherwise throws Error naming every
+// offending subject and writes nothing. An earlier pool-ready/ is replaced only whole.
+// Prints a note per subject that cannot estimate a contrast unless options.quiet.
+void GatherStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log);
+
 // Ctrl-C (SIGINT) and SIGTERM set a flag that running fits poll: the subject in progress
 // is abandoned without partial files, finished subjects keep their outputs.
 void InstallInterruptHandler();

@@ -127,6 +127,13 @@ int main(int argc, char** argv) {
       "status", "list every subject as up to date, stale (and why) or missing");
   AddStudyOptions(status, &config, &options);
 
+  CLI::App* gather = app.add_subcommand(
+      "gather", "stack every subject's t-contrast estimates and variances (or ROI rows) into "
+                "OUT/pool-ready/ for the group stage");
+  gather->add_option("config", config, "study config file (YAML)")->required();
+  gather->add_option("--out", options.output_dir,
+                     "output folder (default: the config's `output`)");
+
   std::string demo_dir;
   uint64_t seed = 20261202;
   CLI::App* demo = app.add_subcommand(
@@ -184,6 +191,10 @@ int main(int argc, char** argv) {
     }
     if (*status) {
       return boldsum::PrintStudyStatus(*spec, options, std::cout) == 0 ? 0 : kExitUnusableModel;
+    }
+    if (*gather) {
+      boldsum::GatherStudy(*spec, options, std::cout);
+      return 0;
     }
     options.live_progress = isatty(STDOUT_FILENO) != 0;
     boldsum::InstallInterruptHandler();

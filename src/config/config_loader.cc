@@ -5,6 +5,7 @@
 #include <sstream>
 
 #include "boldsum/config.h"
+#include "config/participants_reader.h"
 #include "config/readers.h"
 
 namespace boldsum {
@@ -15,6 +16,23 @@ using config::Field;
 namespace {
 
 constexpr long long kConfigVersion = 1;
+
+// `participants` (checked against the subjects read before it), and the one subject id
+// that would collide with the study-level output folder.
+void ReadParticipantsAndReserved(config::YamlReader& reader, const Field* participants,
+                                 StudySpec* spec) {
+  for (const SubjectSpec& subject : spec->subjects) {
+    if (subject.id == "pool-ready") {
+      reader.Error(subject.where, "subject id 'pool-ready' is reserved: OUT/pool-ready/ holds "
+                                  "the study's stacked results");
+    }
+  }
+  if (!participants) return;
+  if (auto path = reader.ExistingFile(*participants, "a path to a participants table")) {
+    spec->participants_path = path->absolute;
+    config::CheckParticipants(reader, *path, reader.At(*participants), spec->subjects);
+  }
+}
 
 void ReadStudy(config::YamlReader& reader, const YAML::Node& document, StudySpec* spec) {
   const Field root{"", YAML::Node(), document};
@@ -62,6 +80,7 @@ void ReadStudy(config::YamlReader& reader, const YAML::Node& document, StudySpec
     spec->subjects = config::ReadSubjectsFrom(reader, *found, spec->model, state,
                                               &spec->discovery_report);
   }
+  ReadParticipantsAndReserved(reader, find("participants"), spec);
 }
 
 }  // namespace

@@ -31,7 +31,8 @@ const KeyLevel& TopKeys() {
                                {"mask"},
                                {"subjects"},
                                {"subjects_from"},
-                               {"output"}}};
+                               {"output"},
+                               {"participants"}}};
   return level;
 }
 

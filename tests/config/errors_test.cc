@@ -38,7 +38,7 @@ TEST(ConfigErrors, MissingAndEmptyConfigFiles) {
             Messages{"D/study.yaml:1:1: error: expected a mapping with keys version, tr, "
                      "slice_reference, hrf, drift, autocorrelation, conditions, ignore, "
                      "confounds, censor, contrasts, mask, subjects, subjects_from, output, "
-                     "got a list"});
+                     "participants, got a list"});
 }
 
 TEST(ConfigErrors, UnknownKeysAtEveryLevelWithSuggestion) {
@@ -68,7 +68,7 @@ TEST(ConfigErrors, UnknownKeysAtEveryLevelWithSuggestion) {
                 "D/study.yaml:5:32: error: censor: unknown key 'abve' (did you mean 'above'?)",
                 "D/study.yaml:8:1: error: unknown key 'colour'; valid keys: version, tr, "
                 "slice_reference, hrf, drift, autocorrelation, conditions, ignore, confounds, "
-                "censor, contrasts, mask, subjects, subjects_from, output",
+                "censor, contrasts, mask, subjects, subjects_from, output, participants",
                 "D/study.yaml:11:5: error: subjects[0]: unknown key 'rnus' (did you mean 'runs'?)",
                 "D/study.yaml:13:9: error: subjects[0].runs[0]: no confounds file, but the model "
                 "needs one for confounds (shift_x)",

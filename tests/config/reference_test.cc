@@ -59,8 +59,8 @@ TEST(ReferenceConfig, LoadsApartFromTheMissingDataFiles) {
     EXPECT_NE(d.message.find("' not found (looked for "), std::string::npos) << d.ToString();
     ++missing;
   }
-  // mask, run 1 data, events and confounds, run 2 data and confounds.
-  EXPECT_EQ(missing, 6);
+  // mask, run 1 data, events and confounds, run 2 data and confounds, participants.
+  EXPECT_EQ(missing, 7);
 }
 
 }  // namespace
