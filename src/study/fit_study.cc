@@ -6,6 +6,7 @@
 #include <filesystem>
 #include <mutex>
 #include <ostream>
+#include <sstream>
 #include <thread>
 
 #include "boldsum/study.h"
@@ -237,6 +238,20 @@ void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& 
   }
   progress.Log(std::to_string(work.size()) + " subject(s) brought up to date, " +
                std::to_string(skipped) + " already up to date");
+  // The pool-ready stacks need every subject; a fit of selected subjects (one job of a
+  // workflow, say) leaves them to `boldsum gather`.
+  // Subjects that cannot be stacked together (ROI tables mixed with images, subjects on
+  // different grids) are a note here, not a failure: every subject was fitted.
+  if (options.subjects.empty()) {
+    std::ostringstream gather_log;
+    try {
+      GatherStudy(spec, options, gather_log);
+    } catch (const Error& error) {
+      gather_log << "note: pool-ready/ not written: " << error.what() << "\n";
+    }
+    std::istringstream lines(gather_log.str());
+    for (std::string line; std::getline(lines, line);) progress.Log(line);
+  }
 }
 
 int PrintStudyStatus(const StudySpec& spec, const StudyOptions& options, std::ostream& out) {
