@@ -11,6 +11,7 @@
 
 #include "boldsum/config.h"
 #include "boldsum/error.h"
+#include "boldsum/pool.h"
 #include "boldsum/study.h"
 #include "study/demo_study.h"
 #include "study/export_workflow.h"
@@ -136,6 +137,14 @@ int main(int argc, char** argv) {
 
   std::string demo_dir;
   uint64_t seed = 20261202;
+  std::string group_config;
+  boldsum::PoolRunOptions pool_options;
+  CLI::App* pool = app.add_subcommand(
+      "pool", "group stage: pool subjects' estimates and variances (mixed effects, REML)");
+  pool->add_option("group_config", group_config, "group model file (YAML)")->required();
+  pool->add_option("--threads", pool_options.threads, "worker threads (default: all cores)")
+      ->check(CLI::NonNegativeNumber);
+
   CLI::App* demo = app.add_subcommand(
       "demo", "write a synthetic melody-listening study (images, ROI tables, configs, truth)");
   demo->add_option("dir", demo_dir, "folder to create (must be new or empty)")->required();
@@ -163,6 +172,24 @@ int main(int argc, char** argv) {
     if (*demo) {
       boldsum::WriteDemoStudy(demo_dir, seed);
       std::cout << "demo study written to " << demo_dir << "\n";
+      return 0;
+    }
+    if (*pool) {
+      boldsum::LoadedGroupConfig loaded = boldsum::LoadGroupConfig(group_config);
+      for (const boldsum::Diagnostic& d : loaded.diagnostics.all()) std::cerr << d.ToString() << "\n";
+      if (loaded.diagnostics.HasErrors()) {
+        std::cerr << "boldsum: " << loaded.diagnostics.ErrorCount() << " error(s) in "
+                  << group_config << "; nothing was done\n";
+        return kExitInvalidInput;
+      }
+      const boldsum::PoolSummary summary = boldsum::RunPool(loaded.spec, pool_options);
+      for (const boldsum::PoolContrastSummary& c : summary.contrasts) {
+        std::cout << c.contrast << ": " << c.units_valid << " of " << c.units
+                  << " pooled; tau2 = 0 at " << c.boundary << "; REML iterations median "
+                  << c.iterations_median << ", max " << c.iterations_max << "\n";
+      }
+      std::cout << summary.files_written.size() << " files written to "
+                << loaded.spec.output_dir << "\n";
       return 0;
     }
     if (*compare) {
