@@ -69,6 +69,8 @@ void PrintRunReport(const std::string& subject, const RunPlan& run, const Design
 }  // namespace
 
 bool CheckStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log) {
+  // Subjects found in a BIDS dataset: what was found, and everything left out and why.
+  for (const std::string& line : spec.discovery_report) log << line << "\n";
   Diagnostics diagnostics;
   std::vector<SubjectPlan> plans;
   for (const SubjectSpec* subject : SelectSubjects(spec, options.subjects)) {
