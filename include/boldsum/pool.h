@@ -6,6 +6,7 @@
 #pragma once
 
 #include <Eigen/Dense>
+#include <cstdint>
 #include <map>
 #include <string>
 #include <vector>
@@ -141,6 +142,10 @@ LoadedGroupConfig LoadGroupConfig(const std::string& path);
 struct PoolRunOptions {
   int threads = 0;  // 0 means the hardware count; results do not depend on it
   RemlOptions reml;
+  // Images are read in slabs of mask voxels whose estimates and variances (16 bytes per
+  // subject and voxel) fit in this many bytes, each stack decompressed once per slab.
+  // Larger means fewer passes over the files; results do not depend on it.
+  int64_t slab_bytes = int64_t{1} << 30;
 };
 
 // What RunPool did, per first-level contrast (also written to summary.json).

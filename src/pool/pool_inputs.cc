@@ -163,93 +163,6 @@ bool DescribeRegions(const std::string& path, PoolInput* input, Diagnostics* dia
   return diagnostics->ErrorCount() == errors_before;
 }
 
-PoolData ReadImageData(const PoolInput& input, const std::string& contrast) {
-  PoolData data;
-  const std::string mask_path = FindImage(input.folder, "mask");
-  if (mask_path.empty()) throw Error(input.folder + ": no mask.nii.gz");
-  const std::vector<float> mask = ReadVolume(mask_path, &data.geometry);
-  for (size_t i = 0; i < mask.size(); ++i) {
-    if (std::isfinite(mask[i]) && mask[i] != 0) data.voxels.push_back(static_cast<int64_t>(i));
-  }
-  const Eigen::Index n = static_cast<Eigen::Index>(input.subjects.size());
-  const Eigen::Index voxels = static_cast<Eigen::Index>(data.voxels.size());
-  for (const char* kind : {"estimate", "variance"}) {
-    const std::string path = FindImage(input.folder, contrast + "." + kind);
-    if (path.empty()) throw Error(input.folder + ": no " + contrast + "." + kind + ".nii.gz");
-    Eigen::MatrixXd& target = std::string(kind) == "estimate" ? data.estimates : data.variances;
-    target.resize(n, voxels);
-    VolumeStream stream(path, data.voxels, 16);
-    if (stream.geometry().n_volumes != n) {
-      throw Error(SourceLocation{path, 0, 0},
-                  "has " + std::to_string(stream.geometry().n_volumes) + " volumes but " +
-                      std::to_string(n) + " subjects are listed");
-    }
-    if (!stream.geometry().SameSpace(data.geometry)) {
-      throw Error(SourceLocation{path, 0, 0}, "grid or orientation differs from " + mask_path);
-    }
-    Eigen::MatrixXf block;
-    Eigen::Index row = 0;
-    while (stream.Next(&block)) {
-      if (row + block.rows() > n) break;
-      target.middleRows(row, block.rows()) = block.cast<double>();
-      row += block.rows();
-    }
-    if (row != n) {
-      throw Error(SourceLocation{path, 0, 0},
-                  "delivered " + std::to_string(row) + " volumes, expected " + std::to_string(n));
-    }
-  }
-  return data;
-}
-
-PoolData ReadRegionData(const PoolInput& input, const std::string& contrast) {
-  const Table table = ReadTable(input.table_path);
-  std::vector<int> columns;
-  for (const char* name : kRegionColumns) {
-    columns.push_back(table.ColumnIndex(name));
-    if (columns.back() < 0) {
-      throw Error(SourceLocation{input.table_path, 1, 0},
-                  std::string("missing column '") + name + "'");
-    }
-  }
-  std::map<std::string, int> subject_index, region_index;
-  for (size_t i = 0; i < input.subjects.size(); ++i) {
-    subject_index[SubjectKey(input.subjects[i])] = static_cast<int>(i);
-  }
-  PoolData data;
-  std::vector<std::pair<int, int>> rows;  // (table row, region)
-  for (int r = 0; r < static_cast<int>(table.rows.size()); ++r) {
-    if (table.rows[r][columns[1]] != contrast) continue;
-    const std::string& region = table.rows[r][columns[2]];
-    auto [it, added] = region_index.emplace(region, static_cast<int>(data.regions.size()));
-    if (added) data.regions.push_back(region);
-    rows.emplace_back(r, it->second);
-  }
-  const Eigen::Index n = static_cast<Eigen::Index>(input.subjects.size());
-  const Eigen::Index regions = static_cast<Eigen::Index>(data.regions.size());
-  data.estimates.setConstant(n, regions, kNaN);
-  data.variances.setConstant(n, regions, kNaN);
-  for (const auto& [r, region] : rows) {
-    const std::vector<std::string>& row = table.rows[r];
-    const auto subject = subject_index.find(SubjectKey(row[columns[0]]));
-    if (subject == subject_index.end()) {
-      throw Error(table.CellLocation(r, columns[0]),
-                  "subject '" + row[columns[0]] + "' was not in the table when it was checked");
-    }
-    for (int i = 3; i < 5; ++i) {
-      double value = kNaN;
-      const std::string& cell = row[columns[i]];
-      if (cell != "n/a" && !ParseNumber(cell, &value)) {
-        throw Error(table.CellLocation(r, columns[i]),
-                    std::string("column '") + kRegionColumns[i] +
-                        "': expected a finite number or n/a, got '" + cell + "'");
-      }
-      (i == 3 ? data.estimates : data.variances)(subject->second, region) = value;
-    }
-  }
-  return data;
-}
-
 }  // namespace
 
 std::string SubjectKey(const std::string& id) {
@@ -305,9 +218,96 @@ bool DescribePoolInput(const std::string& path, const SourceLocation& where, Poo
   return DescribeImages(path, stems, where, input, diagnostics);
 }
 
-PoolData ReadPoolData(const PoolInput& input, const std::string& contrast) {
-  return input.kind == PoolInputKind::kImages ? ReadImageData(input, contrast)
-                                              : ReadRegionData(input, contrast);
+std::vector<int64_t> ReadPoolMask(const PoolInput& input, ImageGeometry* geometry) {
+  const std::string mask_path = FindImage(input.folder, "mask");
+  if (mask_path.empty()) throw Error(input.folder + ": no mask.nii.gz");
+  const std::vector<float> mask = ReadVolume(mask_path, geometry);
+  std::vector<int64_t> voxels;
+  for (size_t i = 0; i < mask.size(); ++i) {
+    if (std::isfinite(mask[i]) && mask[i] != 0) voxels.push_back(static_cast<int64_t>(i));
+  }
+  return voxels;
 }
+
+void ReadImageSlab(const PoolInput& input, const std::string& contrast,
+                   const ImageGeometry& geometry, const std::vector<int64_t>& voxels,
+                   Eigen::MatrixXd* estimates, Eigen::MatrixXd* variances) {
+  const Eigen::Index n = static_cast<Eigen::Index>(input.subjects.size());
+  for (const char* kind : {"estimate", "variance"}) {
+    const std::string path = FindImage(input.folder, contrast + "." + kind);
+    if (path.empty()) throw Error(input.folder + ": no " + contrast + "." + kind + ".nii.gz");
+    Eigen::MatrixXd& target = std::string(kind) == "estimate" ? *estimates : *variances;
+    target.resize(n, static_cast<Eigen::Index>(voxels.size()));
+    VolumeStream stream(path, voxels, 16);
+    if (stream.geometry().n_volumes != n) {
+      throw Error(SourceLocation{path, 0, 0},
+                  "has " + std::to_string(stream.geometry().n_volumes) + " volumes but " +
+                      std::to_string(n) + " subjects are listed");
+    }
+    if (!stream.geometry().SameSpace(geometry)) {
+      throw Error(SourceLocation{path, 0, 0}, "grid or orientation differs from the mask's");
+    }
+    Eigen::MatrixXf block;
+    Eigen::Index row = 0;
+    while (stream.Next(&block)) {
+      if (row + block.rows() > n) break;
+      target.middleRows(row, block.rows()) = block.cast<double>();
+      row += block.rows();
+    }
+    if (row != n) {
+      throw Error(SourceLocation{path, 0, 0},
+                  "delivered " + std::to_string(row) + " volumes, expected " + std::to_string(n));
+    }
+  }
+}
+
+PoolData ReadRegionData(const PoolInput& input, const std::string& contrast) {
+  const Table table = ReadTable(input.table_path);
+  std::vector<int> columns;
+  for (const char* name : kRegionColumns) {
+    columns.push_back(table.ColumnIndex(name));
+    if (columns.back() < 0) {
+      throw Error(SourceLocation{input.table_path, 1, 0},
+                  std::string("missing column '") + name + "'");
+    }
+  }
+  std::map<std::string, int> subject_index, region_index;
+  for (size_t i = 0; i < input.subjects.size(); ++i) {
+    subject_index[SubjectKey(input.subjects[i])] = static_cast<int>(i);
+  }
+  PoolData data;
+  std::vector<std::pair<int, int>> rows;  // (table row, region)
+  for (int r = 0; r < static_cast<int>(table.rows.size()); ++r) {
+    if (table.rows[r][columns[1]] != contrast) continue;
+    const std::string& region = table.rows[r][columns[2]];
+    auto [it, added] = region_index.emplace(region, static_cast<int>(data.regions.size()));
+    if (added) data.regions.push_back(region);
+    rows.emplace_back(r, it->second);
+  }
+  const Eigen::Index n = static_cast<Eigen::Index>(input.subjects.size());
+  const Eigen::Index regions = static_cast<Eigen::Index>(data.regions.size());
+  data.estimates.setConstant(n, regions, kNaN);
+  data.variances.setConstant(n, regions, kNaN);
+  for (const auto& [r, region] : rows) {
+    const std::vector<std::string>& row = table.rows[r];
+    const auto subject = subject_index.find(SubjectKey(row[columns[0]]));
+    if (subject == subject_index.end()) {
+      throw Error(table.CellLocation(r, columns[0]),
+                  "subject '" + row[columns[0]] + "' was not in the table when it was checked");
+    }
+    for (int i = 3; i < 5; ++i) {
+      double value = kNaN;
+      const std::string& cell = row[columns[i]];
+      if (cell != "n/a" && !ParseNumber(cell, &value)) {
+        throw Error(table.CellLocation(r, columns[i]),
+                    std::string("column '") + kRegionColumns[i] +
+                        "': expected a finite number or n/a, got '" + cell + "'");
+      }
+      (i == 3 ? data.estimates : data.variances)(subject->second, region) = value;
+    }
+  }
+  return data;
+}
+
 
 }  // namespace boldsum

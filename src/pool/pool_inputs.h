@@ -27,7 +27,7 @@ namespace boldsum {
 bool DescribePoolInput(const std::string& path, const SourceLocation& where, PoolInput* input,
                        Diagnostics* diagnostics);
 
-// One first-level contrast's values: n x V estimates and variances (NaN where missing)
+// One first-level contrast's values: n x V estimates and variances (NaN where missing),
 // with V the mask voxels (images) or the regions of that contrast (first-appearance order).
 struct PoolData {
   Eigen::MatrixXd estimates, variances;
@@ -36,9 +36,18 @@ struct PoolData {
   std::vector<std::string> regions;  // regions only
 };
 
-// Reads the data of `contrast`. Throws Error naming the file on any problem (a volume
-// count that differs from the subjects, another grid than the mask's, a bad cell).
-PoolData ReadPoolData(const PoolInput& input, const std::string& contrast);
+// Images: the mask's voxels (finite and non-zero, increasing linear indices) and grid.
+std::vector<int64_t> ReadPoolMask(const PoolInput& input, ImageGeometry* geometry);
+
+// Images: the n x voxels.size() estimates and variances of `contrast` at `voxels`.
+// Throws Error naming the file on a volume count that differs from the subjects, another
+// grid than `geometry`, or a truncated or corrupt file.
+void ReadImageSlab(const PoolInput& input, const std::string& contrast,
+                   const ImageGeometry& geometry, const std::vector<int64_t>& voxels,
+                   Eigen::MatrixXd* estimates, Eigen::MatrixXd* variances);
+
+// Regions: the values of `contrast`. Throws Error at the cell for a bad value.
+PoolData ReadRegionData(const PoolInput& input, const std::string& contrast);
 
 // The subject id used for matching: `id` without a leading "sub-".
 std::string SubjectKey(const std::string& id);

@@ -41,14 +41,17 @@ const char* PoolMethodName(PoolMethod method) {
 
 PooledFitter::PooledFitter(const Eigen::MatrixXd& z, PoolMethod method,
                            const RemlOptions& options)
-    : z_(z), method_(method), options_(options), k_(static_cast<int>(z.cols())) {
+    : z_(z),
+      method_(method),
+      options_(options),
+      k_(static_cast<int>(z.cols())),
+      llt_(z.cols()) {
   a_.resize(k_, k_);
   c_.resize(k_, k_);
   b_.resize(k_, k_);
   bc_.resize(k_, k_);
   g_.resize(k_);
   gamma_.resize(k_);
-  llt_ = Eigen::LLT<Eigen::MatrixXd>(k_);
 }
 
 bool PooledFitter::PrepareBasis() {

@@ -159,7 +159,7 @@ TEST(RunPoolImages, MapsMatchTheSingleFitsAndAreNaNOutsideTheMask) {
   }
 }
 
-TEST(RunPoolImages, ThreadCountDoesNotChangeTheFiles) {
+TEST(RunPoolImages, ThreadCountAndSlabSizeDoNotChangeTheFiles) {
   PoolTestDir dir;
   const ImageStudy study(dir);
   LoadedGroupConfig loaded = dir.Load("input: ready\noutput: one\n");
@@ -170,8 +170,15 @@ TEST(RunPoolImages, ThreadCountDoesNotChangeTheFiles) {
   loaded.spec.output_dir = dir.Path("three");
   options.threads = 3;
   RunPool(loaded.spec, options);
-  for (const char* file : {"melody/intercept.z.nii.gz", "rhythm/tau2.nii.gz"}) {
-    EXPECT_EQ(dir.Read(std::string("one/") + file), dir.Read(std::string("three/") + file));
+  // Slabs of 5 voxels (16 bytes per subject and voxel, 8 subjects): 4 passes per stack.
+  loaded.spec.output_dir = dir.Path("slabs");
+  options.slab_bytes = 16 * 8 * 5;
+  RunPool(loaded.spec, options);
+  for (const char* file : {"melody/intercept.z.nii.gz", "rhythm/tau2.nii.gz", "rhythm/n.nii.gz"}) {
+    const std::string one = dir.Read(std::string("one/") + file);
+    EXPECT_FALSE(one.empty()) << file;
+    EXPECT_EQ(one, dir.Read(std::string("three/") + file)) << file;
+    EXPECT_EQ(one, dir.Read(std::string("slabs/") + file)) << file;
   }
 }
 
