@@ -19,6 +19,10 @@ class BlockSource {
   virtual int n_voxels() const = 0;
   // Fills `block` with the next rows (volumes) for all voxels; false at the end.
   virtual bool Next(Eigen::MatrixXf* block) = 0;
+  // Sources whose values are doubles (ROI tables) return true and serve NextDouble()
+  // instead of Next(), so that no precision is lost on the way to the fit.
+  virtual bool ProvidesDoubles() const { return false; }
+  virtual bool NextDouble(Eigen::MatrixXd* /*block*/) { return false; }
 };
 
 // An in-memory N x V matrix as a BlockSource (ROI tables, tests).
@@ -28,6 +32,8 @@ class MatrixSource : public BlockSource {
   int n_volumes() const override;
   int n_voxels() const override;
   bool Next(Eigen::MatrixXf* block) override;
+  bool ProvidesDoubles() const override { return true; }
+  bool NextDouble(Eigen::MatrixXd* block) override;
  private:
   const Eigen::MatrixXd& data_;
   int block_volumes_;

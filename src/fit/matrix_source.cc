@@ -26,4 +26,12 @@ bool MatrixSource::Next(Eigen::MatrixXf* block) {
   return true;
 }
 
+bool MatrixSource::NextDouble(Eigen::MatrixXd* block) {
+  const int rows = std::min(block_volumes_, n_volumes() - next_row_);
+  if (rows <= 0) return false;
+  *block = data_.middleRows(next_row_, rows);
+  next_row_ += rows;
+  return true;
+}
+
 }  // namespace boldsum

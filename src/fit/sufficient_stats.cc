@@ -25,16 +25,16 @@ SufficientStats AccumulateStats(const DesignBasis& basis, BlockSource* source,
   s.last = Eigen::VectorXd::Zero(n_vox);  // the previous volume while accumulating
   s.offset = Eigen::VectorXd::Zero(n_vox);
 
-  Eigen::MatrixXf block;
   Eigen::Index row0 = 0;
-  while (source->Next(&block)) {
+  // One block of volumes, float (images) or double (ROI tables).
+  const auto accumulate = [&](const auto& block) {
     const Eigen::Index rows = block.rows();
     if (block.cols() != n_vox) {
       throw Error("data block at volume " + std::to_string(row0) + " has " +
                   std::to_string(block.cols()) + " voxels; expected " +
                   std::to_string(n_vox));
     }
-    if (rows == 0) continue;
+    if (rows == 0) return;
     if (row0 + rows > basis.n) {
       throw Error("data has more volumes than the " + std::to_string(basis.n) +
                   " it declares");
@@ -43,9 +43,9 @@ SufficientStats AccumulateStats(const DesignBasis& basis, BlockSource* source,
     ForEachChunk(n_vox, threads, [&](Eigen::Index v0, Eigen::Index v1) {
       const Eigen::Index w = v1 - v0;
       if (is_first && basis.has_constant) {
-        s.offset.segment(v0, w) = block.block(0, v0, 1, w).cast<double>().transpose();
+        s.offset.segment(v0, w) = block.block(0, v0, 1, w).template cast<double>().transpose();
       }
-      Eigen::MatrixXd y = block.middleCols(v0, w).cast<double>();
+      Eigen::MatrixXd y = block.middleCols(v0, w).template cast<double>();
       y.rowwise() -= s.offset.segment(v0, w).transpose();
       s.g.middleCols(v0, w).noalias() += basis.z.middleRows(row0, rows).transpose() * y;
       s.yy.segment(v0, w) += y.colwise().squaredNorm().transpose();
@@ -62,6 +62,13 @@ SufficientStats AccumulateStats(const DesignBasis& basis, BlockSource* source,
       s.last.segment(v0, w) = y.row(rows - 1).transpose();
     });
     row0 += rows;
+  };
+  if (source->ProvidesDoubles()) {
+    Eigen::MatrixXd block;
+    while (source->NextDouble(&block)) accumulate(block);
+  } else {
+    Eigen::MatrixXf block;
+    while (source->Next(&block)) accumulate(block);
   }
   if (row0 != basis.n) {
     throw Error("data ended after " + std::to_string(row0) + " of " +
