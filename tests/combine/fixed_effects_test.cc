@@ -228,8 +228,9 @@ RC_GTEST_PROP(CombineFixedEffects, OrderOfRunsDoesNotMatter, ()) {
     }
   }
   // Sums in another order differ by ~n_runs eps per weight, amplified by the conditions
-  // of the run covariances: 16 n_runs eps times the worst condition number.
-  const double tolerance = 16 * n_runs * kEps * worst_condition;
+  // of the run covariances and once more by the final inverse: 64 n_runs eps times the
+  // worst condition number (16 failed about once in ten runs of 100 random cases).
+  const double tolerance = 64 * n_runs * kEps * worst_condition;
   RC_ASSERT(forward.dof == shuffled.dof);
   for (int v = 0; v < 2; ++v) {
     RC_ASSERT(Distance(forward.effect.col(v), shuffled.effect.col(v)) <= tolerance);
