@@ -73,8 +73,26 @@ class JsonScanner {
 
   [[noreturn]] void Fail(const std::string& message) const {
     const SourceLocation where = Here();
-    std::string found = pos_ < text_.size() ? "'" + std::string(1, text_[pos_]) + "'" : "the end";
-    throw Error(where, "invalid JSON: " + message + ", found " + found);
+    throw Error(where, "invalid JSON: " + message + ", found " + Found());
+  }
+
+  // The character at pos_ for messages: quoted, whole when it is UTF-8 multi-byte, as
+  // U+XXXX when it is a control character.
+  std::string Found() const {
+    if (pos_ >= text_.size()) return "the end";
+    const auto byte = static_cast<unsigned char>(text_[pos_]);
+    if (byte < 0x20 || byte == 0x7F) {
+      static const char kHex[] = "0123456789ABCDEF";
+      return std::string("U+00") + kHex[byte >> 4] + kHex[byte & 0xF];
+    }
+    std::size_t end = pos_ + 1;
+    if (byte >= 0xC0) {
+      while (end < text_.size() && end < pos_ + 4 &&
+             (static_cast<unsigned char>(text_[end]) & 0xC0) == 0x80) {
+        ++end;
+      }
+    }
+    return "'" + text_.substr(pos_, end - pos_) + "'";
   }
 
   void SkipSpace() {

@@ -173,7 +173,7 @@ TEST(JsonMembers, InvalidJsonIsLocated) {
   EXPECT_EQ(ErrorOf("{\"a\": 1} x"), "1:10 invalid JSON: unexpected text after the JSON object, "
                                      "found 'x'");
   EXPECT_EQ(ErrorOf("{\"a\": \"b\n\"}"), "1:9 invalid JSON: control character inside a string, "
-                                         "found '\n'");
+                                         "found U+000A");
   EXPECT_EQ(ErrorOf("{\"a\": [1,\n 2\n"), "3:1 invalid JSON: expected ',' or ']', found the end");
   EXPECT_EQ(ErrorOf("{'a': 1}"), "1:2 invalid JSON: expected a member name in double quotes, "
                                  "found '''");
