@@ -216,9 +216,12 @@ double PooledFitter::SolveReml(int* iterations, bool* converged) {
   grid_x_.push_back(0.0);
   grid_d_.push_back(Evaluate(0.0));
   size_t best = 0;
-  for (double s = c * kGridRatio; grid_x_.back() < upper; s *= kGridRatio) {
+  // The first scan point sits at most 9 decades below the bound, so that one tiny v_i
+  // cannot stretch the scan (anything below it is inside the first bracket).
+  const double first = std::max(c, 1e-9 * upper) * kGridRatio;
+  for (double s = first; grid_x_.back() < upper; s *= kGridRatio) {
     grid_x_.push_back(s - c);
-    grid_d_.push_back(Evaluate(s - c));
+    grid_d_.push_back(Evaluate(grid_x_.back()));
     ++*iterations;
     if (grid_d_.back().log_likelihood > grid_d_[best].log_likelihood) best = grid_x_.size() - 1;
   }
