@@ -251,11 +251,10 @@ BidsDiscovery DiscoverBids(const BidsQuery& query) {
       run.sidecar_tr = tree.FindRepetitionTime(sidecar_roots, candidate.rel_dir, candidate.name);
       subject.runs.push_back(run);
     }
-    std::stable_sort(image_skips.begin(), image_skips.end(),
-                     [](const ImageSkip& a, const ImageSkip& b) {
-                       return std::make_pair(a.folder_index, a.file) <
-                              std::make_pair(b.folder_index, b.file);
-                     });
+    std::stable_sort(
+        image_skips.begin(), image_skips.end(), [](const ImageSkip& a, const ImageSkip& b) {
+          return std::make_pair(a.folder_index, a.file) < std::make_pair(b.folder_index, b.file);
+        });
     for (const ImageSkip& image_skip : image_skips) skipped.push_back(image_skip.line);
     if (subject.runs.empty()) {
       skipped.push_back("skipped " + id + ": " +
@@ -281,11 +280,10 @@ BidsDiscovery DiscoverBids(const BidsQuery& query) {
   if (!query.session.empty()) filters += ", session " + query.session;
   if (!query.space.empty()) filters += ", space " + query.space;
   if (!query.desc.empty()) filters += ", desc " + query.desc;
-  result.report.push_back(
-      "found " + Counted(result.subjects.size(), "subject", "subjects") + ", " +
-      Counted(static_cast<std::size_t>(result.run_count), "run", "runs") + " (" + filters +
-      ") in " + query.bold_root.shown.string() +
-      (separate ? "; events from " + query.dataset.shown.string() : ""));
+  result.report.push_back("found " + Counted(result.subjects.size(), "subject", "subjects") + ", " +
+                          Counted(static_cast<std::size_t>(result.run_count), "run", "runs") +
+                          " (" + filters + ") in " + query.bold_root.shown.string() +
+                          (separate ? "; events from " + query.dataset.shown.string() : ""));
   result.report.insert(result.report.end(), skipped.begin(), skipped.end());
   result.problems = tree.problems();
   return result;

@@ -29,7 +29,7 @@ struct FoundRun {
 };
 
 struct FoundSubject {
-  std::string id;  // the folder name, "sub-<label>"
+  std::string id;              // the folder name, "sub-<label>"
   std::vector<FoundRun> runs;  // by session, then run entity, then file name
 };
 

@@ -74,13 +74,15 @@ std::vector<SubjectSpec> ReadSubjectsFrom(YamlReader& reader, const Field& field
   const int errors_before = reader.reporter().ErrorCount();
   BidsQuery query;
   std::optional<TreeRoot> dataset, derivatives;
-  if (const Field* f = Find(*fields, "bids")) dataset = ReadFolder(reader, *f, "a BIDS dataset folder");
+  if (const Field* f = Find(*fields, "bids"))
+    dataset = ReadFolder(reader, *f, "a BIDS dataset folder");
   if (const Field* f = Find(*fields, "derivatives")) {
     derivatives = ReadFolder(reader, *f, "a folder of preprocessed bold images");
   }
-  const std::vector<std::pair<std::string, std::string*>> labels = {
-      {"task", &query.task}, {"session", &query.session}, {"space", &query.space},
-      {"desc", &query.desc}};
+  const std::vector<std::pair<std::string, std::string*>> labels = {{"task", &query.task},
+                                                                    {"session", &query.session},
+                                                                    {"space", &query.space},
+                                                                    {"desc", &query.desc}};
   for (const auto& [key, target] : labels) {
     const Field* f = Find(*fields, key);
     if (!f) continue;
@@ -98,15 +100,17 @@ std::vector<SubjectSpec> ReadSubjectsFrom(YamlReader& reader, const Field& field
       if (unknown == "{") {
         reader.Error(*f, "'" + *pattern + "' has a '{' without its '}'");
       } else if (!unknown.empty()) {
-        reader.Error(*f, "unknown placeholder " + unknown + " in '" + *pattern +
-                             "'; known: " + known);
+        reader.Error(*f,
+                     "unknown placeholder " + unknown + " in '" + *pattern + "'; known: " + known);
       } else {
         query.confounds_pattern = *pattern;
       }
     }
   } else if (query.confounds_required) {
-    reader.Error(field, "no confounds pattern, but the model needs a confounds table per run "
-                        "for " + needs);
+    reader.Error(field,
+                 "no confounds pattern, but the model needs a confounds table per run "
+                 "for " +
+                     needs);
   }
   if (!dataset || reader.reporter().ErrorCount() != errors_before) return {};
   query.dataset = *dataset;

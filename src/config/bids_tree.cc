@@ -84,8 +84,8 @@ const std::optional<SidecarTr>& BidsTree::SidecarRepetitionTime(const fs::path& 
       if (++count > 1) {
         AddProblem(member.where, "RepetitionTime is given twice");
       } else if (!member.is_number || member.number <= 0) {
-        AddProblem(member.where, "RepetitionTime must be a number of seconds > 0, got " +
-                                     member.text);
+        AddProblem(member.where,
+                   "RepetitionTime must be a number of seconds > 0, got " + member.text);
       } else {
         tr = SidecarTr{member.number, member.where};
       }

@@ -10,10 +10,10 @@
 namespace boldsum::config {
 
 struct JsonMember {
-  std::string name;     // escapes decoded
-  std::string text;     // the value as written ("2.0", "\"ms\"", "[0, 1]")
+  std::string name;  // escapes decoded
+  std::string text;  // the value as written ("2.0", "\"ms\"", "[0, 1]")
   bool is_number = false;
-  double number = 0.0;  // when is_number
+  double number = 0.0;   // when is_number
   SourceLocation where;  // the value's first character, 1-based line and column
 };
 

@@ -39,7 +39,8 @@ TEST(BidsDiscovery, SessionsAndRunsInOrder) {
   WriteRun(dir, "bids/sub-2/ses-01/func/sub-2_ses-01_task-melodies_run-10");
   WriteRun(dir, "bids/sub-2/ses-01/func/sub-2_ses-01_task-melodies_run-2");
   WriteRun(dir, "bids/sub-2/ses-01/func/sub-2_ses-01_task-melodies_run-1");
-  dir.Write("bids/dataset_description.json", "{\"Name\": \"melodies\", \"BIDSVersion\": \"1.8.0\"}");
+  dir.Write("bids/dataset_description.json",
+            "{\"Name\": \"melodies\", \"BIDSVersion\": \"1.8.0\"}");
   const LoadedConfig loaded = dir.Load(kModel + "subjects_from:\n  bids: bids\n  task: melodies\n");
   ASSERT_FALSE(loaded.diagnostics.HasErrors()) << Errors(dir, loaded);
   EXPECT_TRUE(loaded.diagnostics.all().empty()) << Errors(dir, loaded);
@@ -55,7 +56,8 @@ TEST(BidsDiscovery, SessionsAndRunsInOrder) {
   EXPECT_EQ(DataPaths(dir, spec.subjects[1]),
             (Lines{"D/bids/sub-10/func/sub-10_task-melodies_run-1_bold.nii.gz"}));
   const RunSpec& run = spec.subjects[0].runs[2];
-  EXPECT_EQ(run.events_path, Root(dir) + "/bids/sub-2/ses-01/func/sub-2_ses-01_task-melodies_run-10_events.tsv");
+  EXPECT_EQ(run.events_path,
+            Root(dir) + "/bids/sub-2/ses-01/func/sub-2_ses-01_task-melodies_run-10_events.tsv");
   EXPECT_EQ(run.confounds_path, "");
   EXPECT_EQ(testing::Shown(dir, run.where.ToString()),
             "D/bids/sub-2/ses-01/func/sub-2_ses-01_task-melodies_run-10_bold.nii.gz");
@@ -124,16 +126,15 @@ void WriteDerivatives(const StudyDir& dir) {
 TEST(BidsDiscovery, DerivativesWithSpaceDescAndConfounds) {
   StudyDir dir;
   WriteDerivatives(dir);
-  const LoadedConfig loaded = dir.Load(
-      kModel +
-      "confounds: [shift_x, shift_y]\n"
-      "subjects_from:\n"
-      "  bids: bids\n"
-      "  derivatives: prep\n"
-      "  task: melodies\n"
-      "  space: MNI152NLin2009cAsym\n"
-      "  desc: preproc\n"
-      "  confounds: \"{stem}_desc-confounds_timeseries.tsv\"\n");
+  const LoadedConfig loaded = dir.Load(kModel +
+                                       "confounds: [shift_x, shift_y]\n"
+                                       "subjects_from:\n"
+                                       "  bids: bids\n"
+                                       "  derivatives: prep\n"
+                                       "  task: melodies\n"
+                                       "  space: MNI152NLin2009cAsym\n"
+                                       "  desc: preproc\n"
+                                       "  confounds: \"{stem}_desc-confounds_timeseries.tsv\"\n");
   ASSERT_FALSE(loaded.diagnostics.HasErrors()) << Errors(dir, loaded);
   const StudySpec& spec = loaded.spec;
   ASSERT_EQ(spec.subjects.size(), 2u);
@@ -146,40 +147,47 @@ TEST(BidsDiscovery, DerivativesWithSpaceDescAndConfounds) {
   ASSERT_EQ(spec.subjects[1].runs.size(), 1u);
   const RunSpec& run = spec.subjects[1].runs[0];
   EXPECT_EQ(run.events_path, Root(dir) + "/bids/sub-02/func/sub-02_task-melodies_run-1_events.tsv");
-  EXPECT_EQ(run.confounds_path,
-            Root(dir) + "/prep/sub-02/func/sub-02_task-melodies_run-1_desc-confounds_timeseries.tsv");
+  EXPECT_EQ(
+      run.confounds_path,
+      Root(dir) + "/prep/sub-02/func/sub-02_task-melodies_run-1_desc-confounds_timeseries.tsv");
   const std::string mni = "_space-MNI152NLin2009cAsym";
   EXPECT_EQ(
       Report(dir, loaded),
-      (Lines{"found 2 subjects, 3 runs (task melodies, space MNI152NLin2009cAsym, desc preproc) "
-             "in D/prep; events from D/bids",
-             "skipped sub-01/func/sub-01_task-melodies_run-1" + mni + "_desc-smoothed_bold.nii.gz:"
-             " not desc preproc (desc-smoothed)",
-             "skipped sub-01/func/sub-01_task-melodies_run-1_space-T1w_desc-preproc_bold.nii.gz: "
-             "not space MNI152NLin2009cAsym (space-T1w)",
-             "skipped sub-01/func/sub-01_task-melodies_run-1_space-T1w_desc-smoothed_bold.nii.gz: "
-             "not space MNI152NLin2009cAsym (space-T1w)",
-             "skipped sub-01/func/sub-01_task-melodies_run-2" + mni + "_desc-smoothed_bold.nii.gz:"
-             " not desc preproc (desc-smoothed)",
-             "skipped sub-01/func/sub-01_task-melodies_run-2_space-T1w_desc-preproc_bold.nii.gz: "
-             "not space MNI152NLin2009cAsym (space-T1w)",
-             "skipped sub-01/func/sub-01_task-melodies_run-2_space-T1w_desc-smoothed_bold.nii.gz: "
-             "not space MNI152NLin2009cAsym (space-T1w)",
-             "skipped sub-02/func/sub-02_task-melodies_run-1" + mni + "_desc-smoothed_bold.nii.gz:"
-             " not desc preproc (desc-smoothed)",
-             "skipped sub-02/func/sub-02_task-melodies_run-1_space-T1w_desc-preproc_bold.nii.gz: "
-             "not space MNI152NLin2009cAsym (space-T1w)",
-             "skipped sub-02/func/sub-02_task-melodies_run-1_space-T1w_desc-smoothed_bold.nii.gz: "
-             "not space MNI152NLin2009cAsym (space-T1w)",
-             "skipped sub-02/func/sub-02_task-melodies_run-2" + mni + "_desc-preproc_bold.nii.gz: "
-             "no confounds table sub-02/func/sub-02_task-melodies_run-2_desc-confounds_timeseries"
-             ".tsv",
-             "skipped sub-02/func/sub-02_task-melodies_run-2" + mni + "_desc-smoothed_bold.nii.gz:"
-             " not desc preproc (desc-smoothed)",
-             "skipped sub-02/func/sub-02_task-melodies_run-2_space-T1w_desc-preproc_bold.nii.gz: "
-             "not space MNI152NLin2009cAsym (space-T1w)",
-             "skipped sub-02/func/sub-02_task-melodies_run-2_space-T1w_desc-smoothed_bold.nii.gz: "
-             "not space MNI152NLin2009cAsym (space-T1w)"}));
+      (Lines{
+          "found 2 subjects, 3 runs (task melodies, space MNI152NLin2009cAsym, desc preproc) "
+          "in D/prep; events from D/bids",
+          "skipped sub-01/func/sub-01_task-melodies_run-1" + mni +
+              "_desc-smoothed_bold.nii.gz:"
+              " not desc preproc (desc-smoothed)",
+          "skipped sub-01/func/sub-01_task-melodies_run-1_space-T1w_desc-preproc_bold.nii.gz: "
+          "not space MNI152NLin2009cAsym (space-T1w)",
+          "skipped sub-01/func/sub-01_task-melodies_run-1_space-T1w_desc-smoothed_bold.nii.gz: "
+          "not space MNI152NLin2009cAsym (space-T1w)",
+          "skipped sub-01/func/sub-01_task-melodies_run-2" + mni +
+              "_desc-smoothed_bold.nii.gz:"
+              " not desc preproc (desc-smoothed)",
+          "skipped sub-01/func/sub-01_task-melodies_run-2_space-T1w_desc-preproc_bold.nii.gz: "
+          "not space MNI152NLin2009cAsym (space-T1w)",
+          "skipped sub-01/func/sub-01_task-melodies_run-2_space-T1w_desc-smoothed_bold.nii.gz: "
+          "not space MNI152NLin2009cAsym (space-T1w)",
+          "skipped sub-02/func/sub-02_task-melodies_run-1" + mni +
+              "_desc-smoothed_bold.nii.gz:"
+              " not desc preproc (desc-smoothed)",
+          "skipped sub-02/func/sub-02_task-melodies_run-1_space-T1w_desc-preproc_bold.nii.gz: "
+          "not space MNI152NLin2009cAsym (space-T1w)",
+          "skipped sub-02/func/sub-02_task-melodies_run-1_space-T1w_desc-smoothed_bold.nii.gz: "
+          "not space MNI152NLin2009cAsym (space-T1w)",
+          "skipped sub-02/func/sub-02_task-melodies_run-2" + mni +
+              "_desc-preproc_bold.nii.gz: "
+              "no confounds table sub-02/func/sub-02_task-melodies_run-2_desc-confounds_timeseries"
+              ".tsv",
+          "skipped sub-02/func/sub-02_task-melodies_run-2" + mni +
+              "_desc-smoothed_bold.nii.gz:"
+              " not desc preproc (desc-smoothed)",
+          "skipped sub-02/func/sub-02_task-melodies_run-2_space-T1w_desc-preproc_bold.nii.gz: "
+          "not space MNI152NLin2009cAsym (space-T1w)",
+          "skipped sub-02/func/sub-02_task-melodies_run-2_space-T1w_desc-smoothed_bold.nii.gz: "
+          "not space MNI152NLin2009cAsym (space-T1w)"}));
 }
 
 TEST(BidsDiscovery, ConfoundsOnlyWhenTheModelNeedsThem) {
@@ -199,8 +207,9 @@ TEST(BidsDiscovery, ConfoundsOnlyWhenTheModelNeedsThem) {
   ASSERT_FALSE(loaded.diagnostics.HasErrors()) << Errors(dir, loaded);
   ASSERT_EQ(loaded.spec.subjects.size(), 2u);
   ASSERT_EQ(loaded.spec.subjects[1].runs.size(), 2u);
-  EXPECT_EQ(loaded.spec.subjects[0].runs[0].confounds_path,
-            Root(dir) + "/prep/sub-01/func/sub-01_task-melodies_run-2_desc-confounds_timeseries.tsv");
+  EXPECT_EQ(
+      loaded.spec.subjects[0].runs[0].confounds_path,
+      Root(dir) + "/prep/sub-01/func/sub-01_task-melodies_run-2_desc-confounds_timeseries.tsv");
   EXPECT_EQ(loaded.spec.subjects[1].runs[0].confounds_path, "");
   EXPECT_EQ(Report(dir, loaded).front(),
             "found 2 subjects, 4 runs (task melodies, space T1w, desc smoothed) in D/prep; "
@@ -229,7 +238,8 @@ TEST(BidsDiscovery, InheritedEventsTableAndSidecars) {
   const LoadedConfig loaded = dir.Load(kModel + "subjects_from: {bids: bids, task: melodies}\n");
   ASSERT_FALSE(loaded.diagnostics.HasErrors()) << Errors(dir, loaded);
   ASSERT_EQ(loaded.spec.subjects.size(), 2u);
-  EXPECT_EQ(loaded.spec.subjects[0].runs[1].events_path, Root(dir) + "/bids/task-melodies_events.tsv");
+  EXPECT_EQ(loaded.spec.subjects[0].runs[1].events_path,
+            Root(dir) + "/bids/task-melodies_events.tsv");
   const RunSpec& run = loaded.spec.subjects[1].runs[0];
   EXPECT_EQ(run.events_path, Root(dir) + "/bids/sub-02/sub-02_task-melodies_events.tsv");
   EXPECT_EQ(run.events.at("melody_known"), (std::vector<Event>{{1.0, 2.0, 1.0}}));

@@ -28,11 +28,10 @@ void WriteTwoSubjects(const StudyDir& dir) {
 TEST(BidsErrors, SubjectsAndSubjectsFromTogether) {
   StudyDir dir;
   WriteTwoSubjects(dir);
-  EXPECT_EQ(dir.LoadMessages(kModel +
-                             "subjects:\n"
-                             "  - id: s01\n"
-                             "    runs: [{data: run1.nii.gz, events: run1_events.tsv}]\n"
-                             "subjects_from: {bids: bids, task: melodies}\n"),
+  EXPECT_EQ(dir.LoadMessages(kModel + "subjects:\n"
+                                      "  - id: s01\n"
+                                      "    runs: [{data: run1.nii.gz, events: run1_events.tsv}]\n"
+                                      "subjects_from: {bids: bids, task: melodies}\n"),
             Lines{"D/study.yaml:6:1: error: subjects_from: give either subjects or "
                   "subjects_from, not both (subjects at line 3)"});
 }
@@ -45,14 +44,14 @@ TEST(BidsErrors, SectionMistakes) {
                    "'session'?)",
                    "D/study.yaml:4:3: error: subjects_from: missing required key 'bids'",
                    "D/study.yaml:4:3: error: subjects_from: missing required key 'task'"}));
-  EXPECT_EQ(dir.LoadMessages(kModel +
-                             "subjects_from:\n"
-                             "  bids: data/bids\n"
-                             "  derivatives: bids/sub-01/func/sub-01_task-melodies_run-1_bold.nii.gz\n"
-                             "  task: melodies_v2\n"
-                             "  session: ses-\n"
-                             "  space: [MNI]\n"
-                             "  desc: desc-preproc\n"),
+  EXPECT_EQ(dir.LoadMessages(
+                kModel + "subjects_from:\n"
+                         "  bids: data/bids\n"
+                         "  derivatives: bids/sub-01/func/sub-01_task-melodies_run-1_bold.nii.gz\n"
+                         "  task: melodies_v2\n"
+                         "  session: ses-\n"
+                         "  space: [MNI]\n"
+                         "  desc: desc-preproc\n"),
             (Lines{"D/study.yaml:4:9: error: subjects_from.bids: folder 'data/bids' not found "
                    "(looked for D/data/bids)",
                    "D/study.yaml:5:16: error: subjects_from.derivatives: "
@@ -69,7 +68,8 @@ TEST(BidsErrors, SectionMistakes) {
 TEST(BidsErrors, ConfoundsPattern) {
   StudyDir dir;
   WriteTwoSubjects(dir);
-  const std::string head = kModel + "confounds: [shift_x]\nsubjects_from:\n  bids: bids\n  task: melodies\n";
+  const std::string head =
+      kModel + "confounds: [shift_x]\nsubjects_from:\n  bids: bids\n  task: melodies\n";
   EXPECT_EQ(dir.LoadMessages(head),
             Lines{"D/study.yaml:5:3: error: subjects_from: no confounds pattern, but the model "
                   "needs a confounds table per run for confounds (shift_x)"});
@@ -113,8 +113,7 @@ TEST(BidsErrors, MalformedSidecars) {
             "{\n  \"RepetitionTime\": 2,\n  \"SliceTiming\": [0, 0.5,]\n}\n");
   dir.Write("bids/sub-02/sub-02_task-melodies_bold.json",
             "{\"RepetitionTime\": \"2\", \"TaskName\": \"melodies\"}");
-  dir.Write("bids/task-melodies_bold.json",
-            "{\"RepetitionTime\": 2, \"RepetitionTime\": 2.0}");
+  dir.Write("bids/task-melodies_bold.json", "{\"RepetitionTime\": 2, \"RepetitionTime\": 2.0}");
   EXPECT_EQ(dir.LoadMessages(kFromBids),
             (Lines{"D/bids/sub-01/sub-01_task-melodies_bold.json:3:26: error: invalid JSON: "
                    "expected a JSON value, found ']'",

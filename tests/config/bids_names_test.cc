@@ -1,5 +1,7 @@
 // The pieces under subjects_from: BIDS file names, label order, confounds patterns and
 // the JSON sidecar reader.
+#include "config/bids_names.h"
+
 #include <gtest/gtest.h>
 #include <rapidcheck/gtest.h>
 
@@ -10,7 +12,6 @@
 
 #include "boldsum/io.h"
 #include "config/bids_discovery.h"
-#include "config/bids_names.h"
 #include "config/json_members.h"
 
 namespace boldsum::config {
@@ -21,8 +22,10 @@ using Entities = std::vector<std::pair<std::string, std::string>>;
 TEST(BidsNames, ParsesEntitiesSuffixAndExtension) {
   const auto name = ParseBidsName("sub-01_ses-2_task-melodies_run-10_space-MNI_bold.nii.gz");
   ASSERT_TRUE(name.has_value());
-  EXPECT_EQ(name->entities, (Entities{{"sub", "01"}, {"ses", "2"}, {"task", "melodies"},
-                                      {"run", "10"}, {"space", "MNI"}}));
+  EXPECT_EQ(
+      name->entities,
+      (Entities{
+          {"sub", "01"}, {"ses", "2"}, {"task", "melodies"}, {"run", "10"}, {"space", "MNI"}}));
   EXPECT_EQ(name->suffix, "bold");
   EXPECT_EQ(name->extension, ".nii.gz");
   EXPECT_EQ(name->Get("run"), "10");
@@ -36,10 +39,10 @@ TEST(BidsNames, ParsesEntitiesSuffixAndExtension) {
 }
 
 TEST(BidsNames, RejectsWhatIsNotABidsName) {
-  for (const char* bad : {"sub-01_task-a b_bold.nii", "sub-01__bold.nii", "sub_bold.nii",
-                          "sub-01_sub-02_bold.nii", "Sub-01_bold.nii", "sub-01-2_bold.nii",
-                          "sub-_bold.nii", "-01_bold.nii", "sub-01_task-x_.nii", "sub-01_bo-ld",
-                          ""}) {
+  for (const char* bad :
+       {"sub-01_task-a b_bold.nii", "sub-01__bold.nii", "sub_bold.nii", "sub-01_sub-02_bold.nii",
+        "Sub-01_bold.nii", "sub-01-2_bold.nii", "sub-_bold.nii", "-01_bold.nii",
+        "sub-01_task-x_.nii", "sub-01_bo-ld", ""}) {
     EXPECT_FALSE(ParseBidsName(bad).has_value()) << bad;
   }
 }
@@ -170,16 +173,20 @@ TEST(JsonMembers, InvalidJsonIsLocated) {
   EXPECT_EQ(ErrorOf("[1]"), "1:1 invalid JSON: expected a JSON object ('{') at the top, found '['");
   EXPECT_EQ(ErrorOf("{\"a\": 01}"), "1:7 invalid JSON: malformed number, found '0'");
   EXPECT_EQ(ErrorOf("{\"a\": 1.}"), "1:9 invalid JSON: expected digits after '.', found '}'");
-  EXPECT_EQ(ErrorOf("{\"a\": 1} x"), "1:10 invalid JSON: unexpected text after the JSON object, "
-                                     "found 'x'");
-  EXPECT_EQ(ErrorOf("{\"a\": \"b\n\"}"), "1:9 invalid JSON: control character inside a string, "
-                                         "found U+000A");
+  EXPECT_EQ(ErrorOf("{\"a\": 1} x"),
+            "1:10 invalid JSON: unexpected text after the JSON object, "
+            "found 'x'");
+  EXPECT_EQ(ErrorOf("{\"a\": \"b\n\"}"),
+            "1:9 invalid JSON: control character inside a string, "
+            "found U+000A");
   EXPECT_EQ(ErrorOf("{\"a\": [1,\n 2\n"), "3:1 invalid JSON: expected ',' or ']', found the end");
-  EXPECT_EQ(ErrorOf("{'a': 1}"), "1:2 invalid JSON: expected a member name in double quotes, "
-                                 "found '''");
+  EXPECT_EQ(ErrorOf("{'a': 1}"),
+            "1:2 invalid JSON: expected a member name in double quotes, "
+            "found '''");
   EXPECT_EQ(ErrorOf("{\"a\": tru}"), "1:7 invalid JSON: expected a JSON value, found 't'");
   EXPECT_EQ(ErrorOf("{\"a\": \"\\x\"}"), "1:9 invalid JSON: unknown escape in a string, found 'x'");
-  EXPECT_EQ(ErrorOf(""), "1:1 invalid JSON: expected a JSON object ('{') at the top, found the end");
+  EXPECT_EQ(ErrorOf(""),
+            "1:1 invalid JSON: expected a JSON object ('{') at the top, found the end");
   EXPECT_EQ(ErrorOf(std::string(600, '[')).substr(0, 4), "1:1 ");
   EXPECT_EQ(ErrorOf("{\"a\": " + std::string(600, '[')),
             "1:519 invalid JSON: nesting deeper than 512, found '['");

@@ -32,10 +32,10 @@ TEST(BidsReport, SkippedImagesAndSubjectsWithReasons) {
   // Files that are not bold images, and a bold sidecar, are not candidates at all.
   dir.Write("bids/sub-01/func/sub-01_task-melodies_run-1_sbref.nii.gz", "placeholder\n");
   dir.Write("bids/sub-01/func/sub-01_task-melodies_run-1_bold.json", testing::Sidecar(2.0));
-  WriteRun(dir, "bids/sub-02/func/sub-02_task-motor");  // only another task
-  dir.Write("bids/sub-03/anat/sub-03_T1w.nii.gz", "placeholder\n");  // no func folder
+  WriteRun(dir, "bids/sub-02/func/sub-02_task-motor");                  // only another task
+  dir.Write("bids/sub-03/anat/sub-03_T1w.nii.gz", "placeholder\n");     // no func folder
   WriteRun(dir, "bids/sub-04/func/sub-04_task-melodies_run-1", false);  // no events at all
-  WriteRun(dir, "bids/sub-05/func/sub-05_acq-fast_run-1");  // no task entity
+  WriteRun(dir, "bids/sub-05/func/sub-05_acq-fast_run-1");              // no task entity
   dir.Write("bids/derivatives/README", "not a subject\n");
   const LoadedConfig loaded = dir.Load(kFromBids);
   EXPECT_FALSE(loaded.diagnostics.HasErrors()) << dir.Messages(loaded).front();
@@ -106,10 +106,11 @@ TEST(BidsReport, NothingUsableIsAnErrorWithTheReasonsAsWarnings) {
 
 TEST(BidsReport, ListedSubjectsHaveNoReport) {
   StudyDir dir;
-  const LoadedConfig loaded = dir.Load(kModel +
-                                       "subjects:\n"
-                                       "  - id: s01\n"
-                                       "    runs: [{data: run1.nii.gz, events: run1_events.tsv}]\n");
+  const LoadedConfig loaded =
+      dir.Load(kModel +
+               "subjects:\n"
+               "  - id: s01\n"
+               "    runs: [{data: run1.nii.gz, events: run1_events.tsv}]\n");
   EXPECT_FALSE(loaded.diagnostics.HasErrors());
   EXPECT_TRUE(loaded.spec.discovery_report.empty());
 }

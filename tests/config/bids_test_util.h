@@ -41,8 +41,7 @@ inline void WriteRun(const StudyDir& dir, const std::string& stem, bool with_eve
 }
 
 inline std::string Sidecar(double tr) {
-  return "{\n  \"TaskName\": \"melodies\",\n  \"RepetitionTime\": " + std::to_string(tr) +
-         "\n}\n";
+  return "{\n  \"TaskName\": \"melodies\",\n  \"RepetitionTime\": " + std::to_string(tr) + "\n}\n";
 }
 
 }  // namespace boldsum::testing
