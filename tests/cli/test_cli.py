@@ -84,7 +84,7 @@ with tempfile.TemporaryDirectory() as root:
     result = run("fit", good)
     expect("fit of a valid ROI study succeeds", result.returncode == 0, result.stderr)
     expect("no staging folders left",
-           not [n for n in os.listdir(os.path.join(root, "out3")) if n.startswith(".")])
+           not [n for n in os.listdir(os.path.join(root, "out3")) if ".staging" in n])
 
     # Usage errors.
     expect("no command: exit 2", run().returncode == 2)
