@@ -92,8 +92,6 @@ def write_contrasts(design_path, path):
 
     def row(weights):
         return [str(weights.get(name, 0)) for name in names]
-    known, new = names.index("melody_known"), names.index("melody_new")
-    assert known >= 0 and new >= 0
     lines = ["known_vs_new\tt\t1\t" + "\t".join(row({"melody_known": 1, "melody_new": -1})),
              "any_melody\tF\t2\t" + "\t".join(row({"melody_known": 1}) + row({"melody_new": 1}))]
     with open(path, "w") as f:
@@ -129,6 +127,7 @@ def measure_run(args, scale, n, tr):
          "--repeat", str(args.repeat), "--dump-every", str(every), "--dump", dump],
         check=True, stdout=subprocess.PIPE, text=True)
     row["ours"] = json.loads(done.stdout)
+    # OPENBLAS_CORETYPE and OPENBLAS_L2_SIZE go (see the header); the thread count is set.
     env = {k: v for k, v in os.environ.items() if not k.startswith("OPENBLAS_")}
     if args.numpy_blas:
         env["LD_LIBRARY_PATH"] = ":".join(

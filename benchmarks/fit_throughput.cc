@@ -9,8 +9,8 @@
 // design.tsv: a header of column names, one row per volume (as `boldsum fit` writes it).
 // contrasts.tsv: one contrast per line, tab-separated: name, t or F, q, then the q x p
 // weights row by row.
-// Output: one JSON object on stdout with the sizes, the load time (VolumeStream: inflate
-// and gather the in-mask voxels into an N x V float matrix) and, per thread count, the
+// Output: one JSON object on stdout with the sizes, the load time (VolumeStream alone:
+// inflate and gather the in-mask voxels, blocks of 32 volumes kept) and, per thread count, the
 // best wall time of FitRun and of the contrast step over R repeats (data stays in memory).
 // With --dump, every K-th in-mask voxel (0, K, 2K, ...) is written to DIR as raw
 // little-endian arrays, voxel-major: y.f32 (N per voxel, the values FitRun saw),
@@ -38,26 +38,24 @@ double Seconds(Clock::time_point since) {
   return std::chrono::duration<double>(Clock::now() - since).count();
 }
 
-// An N x V float matrix handed out in blocks of `block_volumes` volumes, as the CLI's
-// stream hands out blocks of 32.
-class FloatSource : public boldsum::BlockSource {
+// A run held in memory as the blocks of volumes VolumeStream produced, handed out again
+// block by block (copied, as a stream hands out fresh blocks).
+class BlocksSource : public boldsum::BlockSource {
  public:
-  FloatSource(const Eigen::MatrixXf& data, int block_volumes)
-      : data_(data), block_volumes_(block_volumes) {}
-  int n_volumes() const override { return static_cast<int>(data_.rows()); }
-  int n_voxels() const override { return static_cast<int>(data_.cols()); }
+  BlocksSource(const std::vector<Eigen::MatrixXf>& blocks, int volumes)
+      : blocks_(blocks), volumes_(volumes) {}
+  int n_volumes() const override { return volumes_; }
+  int n_voxels() const override { return static_cast<int>(blocks_.front().cols()); }
   bool Next(Eigen::MatrixXf* block) override {
-    if (next_ >= data_.rows()) return false;
-    const Eigen::Index n = std::min<Eigen::Index>(block_volumes_, data_.rows() - next_);
-    *block = data_.middleRows(next_, n);
-    next_ += n;
+    if (next_ >= blocks_.size()) return false;
+    *block = blocks_[next_++];
     return true;
   }
 
  private:
-  const Eigen::MatrixXf& data_;
-  int block_volumes_;
-  Eigen::Index next_ = 0;
+  const std::vector<Eigen::MatrixXf>& blocks_;
+  int volumes_;
+  size_t next_ = 0;
 };
 
 struct Contrast {
@@ -177,13 +175,12 @@ int main(int argc, char** argv) {
       throw boldsum::Error(data_path + ": " + std::to_string(n_volumes) + " volumes but " +
                            design_path + " has " + std::to_string(x.rows()) + " rows");
     }
-    Eigen::MatrixXf data(n_volumes, n_vox);
-    Eigen::MatrixXf block;
-    Eigen::Index row = 0;
-    while (stream.Next(&block)) {
-      data.middleRows(row, block.rows()) = block;
-      row += block.rows();
+    std::vector<Eigen::MatrixXf> blocks;
+    for (;;) {
+      blocks.emplace_back();
+      if (!stream.Next(&blocks.back())) break;
     }
+    blocks.pop_back();
     const double load_s = Seconds(load_start);
 
     std::printf("{\"n_volumes\": %d, \"n_voxels\": %lld, \"p\": %lld, \"load_s\": %.6f, "
@@ -199,7 +196,7 @@ int main(int argc, char** argv) {
       double best_fit = 1e300, best_contrast = 1e300, test_s = 0;
       for (int r = 0; r < repeat; ++r) {
         const auto fit_start = Clock::now();
-        FloatSource source(data, 32);
+        BlocksSource source(blocks, n_volumes);
         fit = boldsum::FitRun(x, &source, options);
         best_fit = std::min(best_fit, Seconds(fit_start));
         const auto contrast_start = Clock::now();
@@ -230,7 +227,9 @@ int main(int argc, char** argv) {
       std::vector<float> y;
       y.reserve(picked.size() * static_cast<size_t>(n_volumes));
       for (Eigen::Index v : picked) {
-        for (int t = 0; t < n_volumes; ++t) y.push_back(data(t, v));
+        for (const Eigen::MatrixXf& b : blocks) {
+          for (Eigen::Index t = 0; t < b.rows(); ++t) y.push_back(b(t, v));
+        }
       }
       WriteRaw(dump_dir + "/y.f32", y);
       WriteRaw(dump_dir + "/beta.f64", Columns(fit.beta, picked));
