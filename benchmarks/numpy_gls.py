@@ -191,8 +191,9 @@ def blas_info():
     """The BLAS library numpy loaded and, for OpenBLAS, its kernel; and its thread count
     (None when unknown)."""
     with open("/proc/self/maps") as f:
-        libs = sorted({line.split()[-1] for line in f
-                       if os.path.basename(line.split()[-1]).startswith(("libblas", "libopenblas"))})
+        paths = {line.split()[-1] for line in f}
+    libs = sorted(p for p in paths
+                  if os.path.basename(p).startswith(("libblas", "libopenblas")))
     if not libs:
         return "no BLAS library found", None
     try:
