@@ -30,6 +30,10 @@ struct ImageGeometry {
   int64_t n_voxels() const { return int64_t{dims[0]} * dims[1] * dims[2]; }
   // True when grid and orientation agree (to 1e-4 mm / 1e-6 in the quaternion).
   bool SameSpace(const ImageGeometry& other) const;
+  // World (mm) coordinates of voxel (x, y, z), by the NIfTI-1 rules in the order a
+  // reader prefers them: the sform when sform_code > 0, else the qform when
+  // qform_code > 0, else voxel * voxel_mm.
+  std::array<double, 3> WorldPosition(int64_t x, int64_t y, int64_t z) const;
 };
 
 // Reads only the header. Throws Error("<path>: ...") when the file is missing, not

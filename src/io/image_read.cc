@@ -1,3 +1,5 @@
+#include <nifti2_io.h>
+
 #include <cmath>
 #include <vector>
 
@@ -40,6 +42,26 @@ bool ImageGeometry::SameSpace(const ImageGeometry& other) const {
     }
   }
   return true;
+}
+
+std::array<double, 3> ImageGeometry::WorldPosition(int64_t x, int64_t y, int64_t z) const {
+  const double ijk[3] = {static_cast<double>(x), static_cast<double>(y), static_cast<double>(z)};
+  std::array<double, 3> world{};
+  if (sform_code > 0) {
+    for (int r = 0; r < 3; ++r) {
+      world[r] = srow[r][0] * ijk[0] + srow[r][1] * ijk[1] + srow[r][2] * ijk[2] + srow[r][3];
+    }
+  } else if (qform_code > 0) {
+    const nifti_dmat44 m =
+        nifti_quatern_to_dmat44(quatern_b, quatern_c, quatern_d, qoffset_x, qoffset_y, qoffset_z,
+                                voxel_mm[0], voxel_mm[1], voxel_mm[2], qfac < 0 ? -1.0 : 1.0);
+    for (int r = 0; r < 3; ++r) {
+      world[r] = m.m[r][0] * ijk[0] + m.m[r][1] * ijk[1] + m.m[r][2] * ijk[2] + m.m[r][3];
+    }
+  } else {
+    for (int r = 0; r < 3; ++r) world[r] = ijk[r] * voxel_mm[r];
+  }
+  return world;
 }
 
 ImageGeometry ReadImageGeometry(const std::string& path) {

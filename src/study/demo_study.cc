@@ -424,6 +424,8 @@ const char kReadme[] =
     "\n"
     "Fit the images:          boldsum fit demo.yaml\n"
     "Fit the region tables:   boldsum fit demo_roi.yaml\n"
+    "Pool the volunteers:     boldsum pool group.yaml; boldsum pool group_roi.yaml\n"
+    "                         (participants.tsv holds invented ages; no age effect is planted)\n"
     "Compare with the truth:  boldsum demo-compare .\n";
 
 std::atomic<int> g_folder_counter{0};
@@ -478,6 +480,9 @@ void WriteStudyInto(const fs::path& root, uint64_t seed) {
   WriteImage((root / "mask.nii.gz").string(), DemoGeometry(1), mask, 1);
   WriteFileAtomically((root / "demo.yaml").string(), DemoImageConfigText());
   WriteFileAtomically((root / "demo_roi.yaml").string(), DemoRoiConfigText());
+  WriteFileAtomically((root / "participants.tsv").string(), DemoParticipantsText());
+  WriteFileAtomically((root / "group.yaml").string(), DemoGroupConfigText(false));
+  WriteFileAtomically((root / "group_roi.yaml").string(), DemoGroupConfigText(true));
   WriteFileAtomically((root / "truth.tsv").string(), truth_tsv);
   WriteFileAtomically((root / "README.txt").string(), kReadme);
 }

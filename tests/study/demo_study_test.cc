@@ -69,8 +69,9 @@ std::set<std::string> ListFiles(const fs::path& root) {
 }
 
 std::set<std::string> ExpectedFiles() {
-  std::set<std::string> files = {"mask.nii.gz", "demo.yaml", "demo_roi.yaml", "truth.tsv",
-                                 "README.txt"};
+  std::set<std::string> files = {"mask.nii.gz",      "demo.yaml",  "demo_roi.yaml",
+                                 "participants.tsv", "group.yaml", "group_roi.yaml",
+                                 "truth.tsv",        "README.txt"};
   for (int s = 1; s <= 8; ++s) {
     for (int r = 1; r <= 2; ++r) {
       const std::string stem = "s0" + std::to_string(s) + "/run-" + std::to_string(r);
@@ -91,6 +92,8 @@ std::string DiagnosticsText(const Diagnostics& diagnostics) {
 TEST(DemoStudyConfigs, CommittedCopiesAreWhatTheDemoWrites) {
   EXPECT_EQ(ReadBytes(kSourceDir / "configs" / "demo.yaml"), DemoImageConfigText());
   EXPECT_EQ(ReadBytes(kSourceDir / "configs" / "demo_roi.yaml"), DemoRoiConfigText());
+  EXPECT_EQ(ReadBytes(kSourceDir / "configs" / "demo_group.yaml"), DemoGroupConfigText(false));
+  EXPECT_EQ(ReadBytes(kSourceDir / "configs" / "demo_group_roi.yaml"), DemoGroupConfigText(true));
   EXPECT_EQ(ReadBytes(kSourceDir / "examples" / "melodies-roi" / "demo_roi.yaml"),
             DemoRoiConfigText());
 }
@@ -334,6 +337,8 @@ TEST(DemoStudy, IsCompleteLoadableAndConsistent) {
   // noise) without the example needing to be written again.
   const fs::path example = kSourceDir / "examples" / "melodies-roi";
   EXPECT_EQ(ReadBytes(example / "truth.tsv"), ReadBytes(study / "truth.tsv"));
+  EXPECT_EQ(ReadBytes(example / "participants.tsv"), ReadBytes(study / "participants.tsv"));
+  EXPECT_EQ(ReadBytes(example / "group_roi.yaml"), ReadBytes(study / "group_roi.yaml"));
   for (int s = 1; s <= 8; ++s) {
     for (int r = 1; r <= 2; ++r) {
       const std::string stem = "s0" + std::to_string(s) + "/run-" + std::to_string(r);
@@ -365,8 +370,9 @@ TEST(DemoStudy, SameSeedGivesTheSameBytesAndAnotherSeedOtherData) {
     EXPECT_TRUE(a == ReadBytes(scratch.path() / "b" / file)) << file << " differs for one seed";
     differing += a != ReadBytes(scratch.path() / "c" / file);
   }
-  // Everything but the configs, the README and the mask depends on the seed.
-  EXPECT_EQ(differing, static_cast<int>(files.size()) - 4);
+  // Everything but the four configs, the participants table, the README and the mask
+  // depends on the seed.
+  EXPECT_EQ(differing, static_cast<int>(files.size()) - 7);
 }
 
 }  // namespace
