@@ -4,6 +4,7 @@ find_package(yaml-cpp REQUIRED)            # 0.7 exports the plain target `yaml-
 find_package(CLI11 CONFIG REQUIRED)
 find_package(Boost REQUIRED CONFIG)        # Boost.Math is header-only
 find_package(ZLIB REQUIRED)
+find_package(PNG REQUIRED)                 # libpng: the report's PNG pictures
 find_package(Threads REQUIRED)
 find_package(PkgConfig REQUIRED)
 pkg_check_modules(FFTW3 REQUIRED IMPORTED_TARGET fftw3)

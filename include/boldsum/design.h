@@ -82,6 +82,10 @@ struct DesignReport {
 DesignReport DescribeDesign(const DesignMatrix& design, const ModelSpec& model,
                             const std::vector<ContrastSpec>& contrasts);
 
+// Pearson correlations of every pair of design columns (p x p, 1 on the diagonal); NaN in
+// the rows and columns of constant columns (the intercept, an all-zero condition).
+Eigen::MatrixXd ColumnCorrelations(const DesignMatrix& design);
+
 // True when every row of C lies in the row space of X (relative tolerance 1e-8).
 bool IsEstimable(const Eigen::MatrixXd& x, const Eigen::MatrixXd& c);
 
@@ -92,5 +96,9 @@ std::string DesignToTsv(const DesignMatrix& design);
 // design.svg: the matrix as a grey-scale image (each column scaled to its own range),
 // with column labels; self-contained.
 std::string DesignToSvg(const DesignMatrix& design, const std::string& title);
+
+// Text with & < > " ' replaced by their XML entities, for SVG (and HTML) text and
+// attribute values.
+std::string EscapeXml(const std::string& text);
 
 }  // namespace boldsum

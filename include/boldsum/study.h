@@ -37,6 +37,23 @@ bool CheckStudy(const StudySpec& spec, const StudyOptions& options, std::ostream
 // finished before keep their new outputs.
 void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log);
 
+// Where a subject's saved results stand against the config and its inputs.
+struct SubjectStatus {
+  enum class State {
+    kUpToDate,          // the recorded fingerprint matches
+    kContrastsChanged,  // only the contrasts differ; the saved fit is still valid
+    kStale,             // inputs or model settings changed (or the saved fit is missing)
+    kMissing,           // no readable results
+  };
+  std::string id;
+  State state = State::kMissing;
+  std::string reason;  // as `status` prints it: "up to date", "stale: ...", "missing ..."
+};
+
+// The status of every selected subject, in config order (refreshes OUT/.checksums.tsv
+// when OUT exists).
+std::vector<SubjectStatus> StudyStatus(const StudySpec& spec, const StudyOptions& options);
+
 // Lists every selected subject as up to date, stale (and why) or missing. Returns the
 // number of subjects that are not up to date.
 int PrintStudyStatus(const StudySpec& spec, const StudyOptions& options, std::ostream& out);

@@ -12,6 +12,7 @@
 #include "boldsum/config.h"
 #include "boldsum/error.h"
 #include "boldsum/pool.h"
+#include "boldsum/report.h"
 #include "boldsum/study.h"
 #include "study/demo_study.h"
 #include "study/export_workflow.h"
@@ -123,6 +124,23 @@ int main(int argc, char** argv) {
   fit->add_option("--memory", options.memory_gb,
                   "memory budget in GB for subjects fitted at once (default: half of RAM)")
       ->check(CLI::PositiveNumber);
+  bool no_report = false;
+  fit->add_flag("--no-report", no_report,
+                "do not write OUT/report/ at the end (written only when every subject is fitted)");
+
+  boldsum::ReportOptions report_options;
+  CLI::App* report = app.add_subcommand(
+      "report", "write OUT/report/: an HTML page per subject (design, noise, residual "
+                "whiteness, contrast maps) and one for the study");
+  report->add_option("config", config, "study config file (YAML)")->required();
+  report->add_option("--out", options.output_dir,
+                     "output folder (default: the config's `output`)");
+  report->add_option("--group", report_options.group_config,
+                     "a group config (boldsum pool) whose results to show");
+  report->add_option("--threads", report_options.threads,
+                     "subjects measured at once (default: all cores)")
+      ->check(CLI::NonNegativeNumber);
+  report->add_flag("--quiet", report_options.quiet, "print nothing but errors and the path");
 
   CLI::App* status = app.add_subcommand(
       "status", "list every subject as up to date, stale (and why) or missing");
@@ -223,9 +241,31 @@ int main(int argc, char** argv) {
       boldsum::GatherStudy(*spec, options, std::cout);
       return 0;
     }
+    report_options.output_dir = options.output_dir;
+    if (*report) {
+      const boldsum::ReportSummary summary =
+          boldsum::WriteStudyReport(*spec, report_options, std::cout);
+      std::cout << "report written: " << summary.index_path << "\n";
+      return 0;
+    }
     options.live_progress = isatty(STDOUT_FILENO) != 0;
     boldsum::InstallInterruptHandler();
     boldsum::FitStudy(*spec, options, std::cout);
+    // The report covers the whole study, so (like pool-ready/) it follows a fit of every
+    // subject only. Its failure leaves the finished fit as it is: a warning, exit 0.
+    if (!no_report && options.subjects.empty()) {
+      report_options.threads = options.threads;
+      report_options.quiet = options.quiet;
+      try {
+        const boldsum::ReportSummary summary =
+            boldsum::WriteStudyReport(*spec, report_options, std::cout);
+        if (!options.quiet) std::cout << "report written: " << summary.index_path << "\n";
+      } catch (const boldsum::Error& error) {
+        std::cerr << "boldsum: warning: the fit is complete but the report was not written: "
+                  << error.what() << "\n";
+        if (boldsum::IsInterrupted()) return kExitInterrupted;
+      }
+    }
     return 0;
   } catch (const boldsum::Error& error) {
     std::cerr << "boldsum: " << error.what() << "\n";

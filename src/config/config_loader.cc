@@ -17,14 +17,18 @@ namespace {
 
 constexpr long long kConfigVersion = 1;
 
-// `participants` (checked against the subjects read before it), and the one subject id
-// that would collide with the study-level output folder.
+// `participants` (checked against the subjects read before it), and the subject ids
+// that would collide with the study-level output folders.
 void ReadParticipantsAndReserved(config::YamlReader& reader, const Field* participants,
                                  StudySpec* spec) {
   for (const SubjectSpec& subject : spec->subjects) {
     if (subject.id == "pool-ready") {
       reader.Error(subject.where, "subject id 'pool-ready' is reserved: OUT/pool-ready/ holds "
                                   "the study's stacked results");
+    }
+    if (subject.id == "report") {
+      reader.Error(subject.where, "subject id 'report' is reserved: OUT/report/ holds the "
+                                  "study's HTML report");
     }
   }
   if (!participants) return;

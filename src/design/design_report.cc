@@ -1,4 +1,4 @@
-// DescribeDesign and IsEstimable (declared in boldsum/design.h).
+// DescribeDesign, ColumnCorrelations and IsEstimable (declared in boldsum/design.h).
 //
 // Definitions:
 //   rank: number of singular values of X above max(N, p) * eps * sigma_max.
@@ -136,6 +136,22 @@ bool IsInRowSpace(const Spectrum& spectrum, const Eigen::MatrixXd& c) {
 }
 
 }  // namespace
+
+Eigen::MatrixXd ColumnCorrelations(const DesignMatrix& design) {
+  const int p = design.n_columns();
+  Eigen::MatrixXd r(p, p);
+  for (int i = 0; i < p; ++i) {
+    const bool constant_i = IsConstant(design.x.col(i));
+    for (int j = 0; j <= i; ++j) {
+      if (constant_i || IsConstant(design.x.col(j))) {
+        r(i, j) = r(j, i) = std::numeric_limits<double>::quiet_NaN();
+      } else {
+        r(i, j) = r(j, i) = i == j ? 1.0 : Correlation(design.x.col(i), design.x.col(j));
+      }
+    }
+  }
+  return r;
+}
 
 bool IsEstimable(const Eigen::MatrixXd& x, const Eigen::MatrixXd& c) {
   if (c.cols() != x.cols()) {

@@ -1,4 +1,5 @@
-// DesignToSvg (declared in boldsum/design.h): the design as a grey-scale picture.
+// DesignToSvg and EscapeXml (declared in boldsum/design.h): the design as a grey-scale
+// picture.
 //
 // Each column is scaled to its own range (minimum black, maximum white; a constant column
 // is white when non-zero, black when zero). Runs longer than kMaxDisplayRows volumes are
@@ -28,32 +29,6 @@ std::string Number(double value) {
   char text[32];
   std::snprintf(text, sizeof text, "%.2f", value);
   return text;
-}
-
-std::string EscapeXml(const std::string& text) {
-  std::string escaped;
-  for (char ch : text) {
-    switch (ch) {
-      case '&':
-        escaped += "&amp;";
-        break;
-      case '<':
-        escaped += "&lt;";
-        break;
-      case '>':
-        escaped += "&gt;";
-        break;
-      case '"':
-        escaped += "&quot;";
-        break;
-      case '\'':
-        escaped += "&apos;";
-        break;
-      default:
-        escaped += ch;
-    }
-  }
-  return escaped;
 }
 
 // Grey level 0..255 of every display row of column c.
@@ -90,6 +65,32 @@ int TickStep(int n) {
 }
 
 }  // namespace
+
+std::string EscapeXml(const std::string& text) {
+  std::string escaped;
+  for (char ch : text) {
+    switch (ch) {
+      case '&':
+        escaped += "&amp;";
+        break;
+      case '<':
+        escaped += "&lt;";
+        break;
+      case '>':
+        escaped += "&gt;";
+        break;
+      case '"':
+        escaped += "&quot;";
+        break;
+      case '\'':
+        escaped += "&apos;";
+        break;
+      default:
+        escaped += ch;
+    }
+  }
+  return escaped;
+}
 
 std::string DesignToSvg(const DesignMatrix& design, const std::string& title) {
   const int n = design.n_volumes();

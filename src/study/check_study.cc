@@ -3,6 +3,7 @@
 #include <ostream>
 
 #include "boldsum/study.h"
+#include "study/check_study.h"
 #include "study/run_plan.h"
 #include "study/subject_outputs.h"
 
@@ -13,34 +14,6 @@ std::string Fixed(double value, int digits) {
   std::ostringstream text;
   text << std::fixed << std::setprecision(digits) << value;
   return text.str();
-}
-
-// Reasons why a run's model cannot be fitted as it stands. A rank deficiency made only
-// of all-zero condition columns (a condition without events in this run) is usable:
-// contrasts needing that condition leave the run out.
-std::vector<std::string> UsabilityProblems(const RunPlan& run, const DesignReport& report) {
-  std::vector<std::string> problems;
-  const DesignMatrix& design = run.design;
-  std::vector<std::string> real_dependencies;
-  for (const std::string& name : report.dependent) {
-    for (const DesignColumn& column : design.columns) {
-      if (column.name != name) continue;
-      const auto j = static_cast<Eigen::Index>(&column - design.columns.data());
-      if (!design.x.col(j).isZero(0.0)) real_dependencies.push_back(name);
-    }
-  }
-  if (!real_dependencies.empty()) {
-    std::string names;
-    for (const std::string& name : real_dependencies) names += (names.empty() ? "" : ", ") + name;
-    problems.push_back("rank deficient (rank " + std::to_string(report.rank) + " of " +
-                       std::to_string(design.n_columns()) +
-                       " columns); linearly dependent columns: " + names);
-  }
-  if (design.n_volumes() - report.rank < 1) {
-    problems.push_back("no residual degrees of freedom (" + std::to_string(design.n_volumes()) +
-                       " volumes, rank " + std::to_string(report.rank) + ")");
-  }
-  return problems;
 }
 
 void PrintRunReport(const std::string& subject, const RunPlan& run, const DesignReport& report,
@@ -67,6 +40,31 @@ void PrintRunReport(const std::string& subject, const RunPlan& run, const Design
 }
 
 }  // namespace
+
+std::vector<std::string> UsabilityProblems(const RunPlan& run, const DesignReport& report) {
+  std::vector<std::string> problems;
+  const DesignMatrix& design = run.design;
+  std::vector<std::string> real_dependencies;
+  for (const std::string& name : report.dependent) {
+    for (const DesignColumn& column : design.columns) {
+      if (column.name != name) continue;
+      const auto j = static_cast<Eigen::Index>(&column - design.columns.data());
+      if (!design.x.col(j).isZero(0.0)) real_dependencies.push_back(name);
+    }
+  }
+  if (!real_dependencies.empty()) {
+    std::string names;
+    for (const std::string& name : real_dependencies) names += (names.empty() ? "" : ", ") + name;
+    problems.push_back("rank deficient (rank " + std::to_string(report.rank) + " of " +
+                       std::to_string(design.n_columns()) +
+                       " columns); linearly dependent columns: " + names);
+  }
+  if (design.n_volumes() - report.rank < 1) {
+    problems.push_back("no residual degrees of freedom (" + std::to_string(design.n_volumes()) +
+                       " volumes, rank " + std::to_string(report.rank) + ")");
+  }
+  return problems;
+}
 
 bool CheckStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log) {
   // Subjects found in a BIDS dataset: what was found, and everything left out and why.

@@ -254,16 +254,36 @@ void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& 
   }
 }
 
-int PrintStudyStatus(const StudySpec& spec, const StudyOptions& options, std::ostream& out) {
+std::vector<SubjectStatus> StudyStatus(const StudySpec& spec, const StudyOptions& options) {
   const std::string root = OutputRoot(spec, options);
   ChecksumCache checksums((fs::path(root) / ".checksums.tsv").string());
-  int not_current = 0;
+  std::vector<SubjectStatus> statuses;
   for (const SubjectSpec* subject : SelectSubjects(spec, options.subjects)) {
     const Decision decision = Decide(spec, *subject, root, false, &checksums);
-    not_current += decision.action != Action::kSkip;
-    out << subject->id << "\t" << decision.reason << "\n";
+    SubjectStatus status;
+    status.id = subject->id;
+    status.reason = decision.reason;
+    if (decision.action == Action::kSkip) {
+      status.state = SubjectStatus::State::kUpToDate;
+    } else if (decision.action == Action::kContrasts) {
+      status.state = SubjectStatus::State::kContrastsChanged;
+    } else {
+      status.state = ReadRecordedFingerprint(SubjectDir(root, subject->id) + "/summary.json").found
+                         ? SubjectStatus::State::kStale
+                         : SubjectStatus::State::kMissing;
+    }
+    statuses.push_back(std::move(status));
   }
   if (fs::exists(root)) checksums.Save();
+  return statuses;
+}
+
+int PrintStudyStatus(const StudySpec& spec, const StudyOptions& options, std::ostream& out) {
+  int not_current = 0;
+  for (const SubjectStatus& status : StudyStatus(spec, options)) {
+    not_current += status.state != SubjectStatus::State::kUpToDate;
+    out << status.id << "\t" << status.reason << "\n";
+  }
   return not_current;
 }
 

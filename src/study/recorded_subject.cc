@@ -52,6 +52,9 @@ RecordedSubject ReadRecordedSubject(const std::string& path) {
       }
       recorded.contrasts.push_back(contrast);
     }
+    for (const YAML::Node& warning : Member(root, "warnings", path)) {
+      recorded.warnings.push_back(warning.as<std::string>());
+    }
     if (recorded.kind == DataKind::kRegions) {
       for (const YAML::Node& region : Member(root, "regions", path)) {
         recorded.regions.push_back(region.as<std::string>());

@@ -17,12 +17,13 @@ struct RecordedContrast {
   std::string dof_text;  // the dof exactly as summary.json writes it; "" when not estimable
 };
 
-// The parts of OUT/<subject>/summary.json that gather needs.
+// The parts of OUT/<subject>/summary.json that gather and the report need.
 struct RecordedSubject {
   std::string id;
   DataKind kind = DataKind::kImage;
   std::vector<RecordedContrast> contrasts;  // in the file's order
   std::vector<std::string> regions;         // region tables only
+  std::vector<std::string> warnings;        // the subject-level warnings (runs left out)
 
   const RecordedContrast* Find(const std::string& name) const;  // nullptr when absent
 };

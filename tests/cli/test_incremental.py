@@ -35,8 +35,9 @@ def differing_files(a, b):
         for folder, _, files in os.walk(top):
             for name in files:
                 rel = os.path.relpath(os.path.join(folder, name), top)
-                if rel.startswith(".") or rel.startswith("pool-ready"):
-                    continue  # the checksum cache is not an output; stacks need all subjects
+                if rel.startswith(".") or rel.startswith("pool-ready") or rel.startswith("report"):
+                    continue  # the checksum cache is not an output; stacks and the report
+                    # describe the whole study
                 other = os.path.join(b if top == a else a, rel)
                 if not os.path.exists(other) or not filecmp.cmp(os.path.join(folder, name), other, shallow=False):
                     differ.append(rel)
@@ -77,9 +78,11 @@ with tempfile.TemporaryDirectory() as root:
            differing_files(out, single) == [], differing_files(out, single))
 
     # Unchanged re-run: everything skipped, nothing rewritten.
-    before = {p: os.stat(os.path.join(out, p)).st_mtime_ns for p in ("s01/summary.json", "s02/mask.nii.gz")}
+    before = {p: os.stat(os.path.join(out, p)).st_mtime_ns
+              for p in ("s01/summary.json", "s02/mask.nii.gz", "pool-ready/subjects.tsv")}
     log = run("fit", config)
     expect("unchanged re-run skips every subject", log.count("up to date, skipped") == 3, log)
+    expect("unchanged re-run does not gather again", "pool-ready: up to date, not gathered again" in log, log)
     expect("unchanged re-run rewrites nothing",
            all(os.stat(os.path.join(out, p)).st_mtime_ns == t for p, t in before.items()))
 
@@ -90,6 +93,7 @@ with tempfile.TemporaryDirectory() as root:
     open(config, "w").write(text)
     log = run("fit", config)
     expect("contrast edit recomputes contrasts", log.count("stale: contrasts changed, recomputing contrasts") == 3, log)
+    expect("contrast edit gathers the stacks again", "gathered 3 subject(s)" in log, log)
     expect("contrast edit equals a clean fit, bitwise", differing_files(out, clean_fit("contrast")) == [],
            differing_files(out, os.path.join(root, "clean-contrast")))
     expect("removed contrast's files are gone", not os.path.exists(os.path.join(out, "s01", "melodies_vs_rest.z.nii.gz")))

@@ -153,6 +153,21 @@ TEST(ConfigErrors, SubjectIds) {
                       "D/study.yaml:11:11: error: subjects[3].runs: must list at least one run"}));
 }
 
+TEST(ConfigErrors, ReservedSubjectIds) {
+  StudyDir dir;
+  EXPECT_EQ(dir.LoadMessages("tr: 2\n"
+                             "conditions: [melody_known, melody_new, press]\n"
+                             "subjects:\n"
+                             "  - id: pool-ready\n"
+                             "    runs: [{data: run1.nii.gz, events: run1_events.tsv}]\n"
+                             "  - id: report\n"
+                             "    runs: [{data: run1.nii.gz, events: run1_events.tsv}]\n"),
+            (Messages{"D/study.yaml:4:5: error: subject id 'pool-ready' is reserved: "
+                      "OUT/pool-ready/ holds the study's stacked results",
+                      "D/study.yaml:6:5: error: subject id 'report' is reserved: OUT/report/ holds "
+                      "the study's HTML report"}));
+}
+
 TEST(ConfigErrors, ConfoundsFileAndColumns) {
   StudyDir dir;
   dir.Write("other_confounds.tsv", "shift_x\tshift_yy\tdisp\n1\t2\t3\n");

@@ -193,6 +193,18 @@ for case in cases:
         check(case["name"] + ": max |corr| %s = numpy.corrcoef" % cond_name,
               abs(float(mc) - best[0]) < 1e-12 and mw == best[1], "%s %s vs %.15g %s" % (
                   mc, mw, best[0], best[1]))
+    # ColumnCorrelations against numpy.corrcoef; constant columns (intercept, a condition
+    # without events) have no correlation: nan. Tolerance 1e-12 (both centre, then divide).
+    got = np.array([[float(v) for v in row[1:]] for row in info["correlations"]])
+    constant = np.array([np.ptp(x[:, i]) <= 1e-12 * np.abs(x[:, i]).max() for i in range(len(names))])
+    want = np.full((len(names), len(names)), np.nan)
+    live = np.flatnonzero(~constant)
+    if live.size:
+        want[np.ix_(live, live)] = np.corrcoef(x[:, live], rowvar=False)
+    same_nan = np.array_equal(np.isnan(got), np.isnan(want))
+    worst = np.nanmax(np.abs(got - want)) if live.size else 0.0
+    check(case["name"] + ": column correlations = numpy.corrcoef", same_nan and worst < 1e-12,
+          "largest difference %.2e, nan pattern equal %s" % (worst, same_nan))
     weights = {}
     for w in info.get("weights", []):
         weights.setdefault(w[0], []).append([float(v) for v in w[2:]])

@@ -13,7 +13,8 @@
 //   contrast NAME t|f KEY=W ... [| KEY=W ...]    (rows of an F contrast split by '|')
 // Output: tsv = DesignToTsv; report = DescribeDesign and contrast weights as lines
 // "rank R", "condition_number X", "dependent A B ...", "condition NAME MAXCORR WITH VIF",
-// "contrast NAME ESTIMABLE EFFICIENCY", "weights NAME ROW W1 W2 ..."; warnings = one
+// "contrast NAME ESTIMABLE EFFICIENCY", "weights NAME ROW W1 W2 ...", and
+// "correlations ROW R1 R2 ..." (ColumnCorrelations, nan for constant columns); warnings = one
 // diagnostic per line; svg = DesignToSvg. Errors: message on stderr, exit status 2.
 #include <cstdio>
 #include <fstream>
@@ -162,6 +163,14 @@ void PrintReport(const Probe& probe, const boldsum::DesignMatrix& design) {
       for (Eigen::Index c = 0; c < weights.cols(); ++c) std::printf(" %.17g", weights(r, c));
       std::printf("\n");
     }
+  }
+  const Eigen::MatrixXd correlations = boldsum::ColumnCorrelations(design);
+  for (Eigen::Index r = 0; r < correlations.rows(); ++r) {
+    std::printf("correlations %d", static_cast<int>(r));
+    for (Eigen::Index c = 0; c < correlations.cols(); ++c) {
+      std::printf(" %.17g", correlations(r, c));
+    }
+    std::printf("\n");
   }
 }
 

@@ -1,0 +1,28 @@
+// Where a voxel lies in the image's world space (millimetres), and how its axes run.
+#pragma once
+
+#include <array>
+
+#include "boldsum/io.h"
+
+namespace boldsum {
+
+using Affine = std::array<std::array<double, 4>, 3>;  // world = A [i j k 1]'
+
+// The voxel-to-world affine of the NIfTI-1 standard (nifti1.h, "3 different methods"):
+// the sform rows when sform_code > 0; otherwise, when qform_code > 0, the quaternion
+// rotation (a = sqrt(1 - b^2 - c^2 - d^2)) times the voxel sizes, the third one times
+// qfac, plus the offsets; otherwise the voxel sizes alone (method 1).
+Affine VoxelToWorld(const ImageGeometry& geometry);
+
+std::array<double, 3> WorldPosition(const Affine& affine, double i, double j, double k);
+
+// For each world axis (x, y, z) the voxel axis that moves most along it and whether it
+// runs the same way (+1) or reversed (-1). The three voxel axes differ.
+struct AxisOrder {
+  std::array<int, 3> voxel_axis;
+  std::array<int, 3> sign;
+};
+AxisOrder DominantAxes(const Affine& affine);
+
+}  // namespace boldsum
