@@ -102,6 +102,8 @@ NumericTable ReadNumericTable(const std::string& path, bool allow_na);
 // Writes `contents` to `path` through a temporary file in the same folder and a
 // rename, so that readers see the old file or the new one, never a part.
 void WriteFileAtomically(const std::string& path, const std::string& contents);
+// A whole file's bytes. Throws Error("<path>: cannot read the file").
+std::string ReadFileBytes(const std::string& path);
 
 // SHA-256 of a file's bytes, as 64 lowercase hex digits. Throws Error if unreadable.
 std::string FileSha256(const std::string& path);

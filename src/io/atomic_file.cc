@@ -8,7 +8,9 @@
 #include <cstdio>
 #include <cstdlib>
 #include <cstring>
+#include <fstream>
 #include <random>
+#include <sstream>
 
 #include "boldsum/error.h"
 #include "boldsum/io.h"
@@ -100,6 +102,14 @@ void WriteFileAtomically(const std::string& path, const std::string& contents) {
     written += static_cast<size_t>(n);
   }
   temp.Commit();
+}
+
+std::string ReadFileBytes(const std::string& path) {
+  std::ifstream in(path, std::ios::binary);
+  std::ostringstream bytes;
+  if (in) bytes << in.rdbuf();
+  if (!in || in.bad()) throw Error(path + ": cannot read the file");
+  return bytes.str();
 }
 
 }  // namespace boldsum

@@ -68,8 +68,8 @@ std::string DescribeGrid(const ImageGeometry& g) {
 
 // Empty when the subject's recorded fingerprint matches the config and its inputs;
 // otherwise why it is out of date.
-std::string Staleness(const StudySpec& spec, const SubjectSpec& subject,
-                      const std::string& summary, ChecksumCache* checksums) {
+std::string Staleness(const StudySpec& spec, const SubjectSpec& subject, const std::string& summary,
+                      ChecksumCache* checksums) {
   const RecordedFingerprint recorded = ReadRecordedFingerprint(summary);
   if (!recorded.found) return "its summary.json records no fit fingerprint";
   SubjectFingerprint now;
@@ -119,8 +119,8 @@ void CheckImageFiles(const std::vector<const ContrastSpec*>& t_contrasts, Subjec
   }
 }
 
-void CheckRegionRows(const std::vector<const ContrastSpec*>& t_contrasts,
-                     SubjectInputs* subject, std::vector<std::string>* problems) {
+void CheckRegionRows(const std::vector<const ContrastSpec*>& t_contrasts, SubjectInputs* subject,
+                     std::vector<std::string>* problems) {
   const std::string path = subject->folder + "/summary.tsv";
   Table table;
   try {
@@ -133,8 +133,9 @@ void CheckRegionRows(const std::vector<const ContrastSpec*>& t_contrasts,
   std::vector<int> columns;
   for (const char* name : kRegionColumns) columns.push_back(table.ColumnIndex(name));
   if (contrast_column < 0 || std::find(columns.begin(), columns.end(), -1) != columns.end()) {
-    problems->push_back(path + ":1: expected the columns contrast, region, estimate, variance, "
-                               "dof");
+    problems->push_back(path +
+                        ":1: expected the columns contrast, region, estimate, variance, "
+                        "dof");
     return;
   }
   for (const std::vector<std::string>& row : table.rows) {
@@ -273,8 +274,8 @@ GatherPlan PlanGather(const StudySpec& spec, const StudyOptions& options) {
     }
     if (!differing.empty()) {
       problems.push_back("grid or affine differs from the first subject '" + first.spec->id +
-                         "' (" + DescribeGrid(first.mask_geometry) + ") for " +
-                         Join(differing) + "; stacks need every subject on one grid");
+                         "' (" + DescribeGrid(first.mask_geometry) + ") for " + Join(differing) +
+                         "; stacks need every subject on one grid");
     }
   }
   if (!spec.participants_path.empty()) {
@@ -386,11 +387,59 @@ void WriteRegionSummaries(const GatherPlan& plan, const OutputStage& stage) {
   WriteFileAtomically(stage.PathFor("summaries.tsv"), text);
 }
 
+// The stacks are a function of the subjects' outputs, which their summary.json files
+// identify (fingerprint and contrasts), the participants table, the stacked contrasts'
+// names and the tool version. OUT/pool-ready/.sources holds this key; a gather whose key
+// is unchanged has nothing to do.
+constexpr const char* kSourcesFile = ".sources";
+
+std::string SourcesKey(const StudySpec& spec, const GatherPlan& plan) {
+  std::string key = std::string("boldsum ") + BOLDSUM_VERSION + "\n";
+  for (const ContrastSpec* contrast : plan.t_contrasts) key += "contrast " + contrast->name + "\n";
+  if (!spec.participants_path.empty()) {
+    key += "participants " + FileSha256(spec.participants_path) + "\n";
+  }
+  for (const SubjectInputs& subject : plan.subjects) {
+    key +=
+        "subject " + subject.spec->id + " " + FileSha256(subject.folder + "/summary.json") + "\n";
+  }
+  return Sha256(key);
+}
+
+// True when the folder's key equals `key` and every file a gather writes is there.
+bool IsUpToDate(const GatherPlan& plan, const fs::path& folder, const std::string& key) {
+  std::vector<std::string> files = {kSourcesFile, "subjects.tsv"};
+  if (plan.kind == DataKind::kImage) {
+    files.push_back("mask.nii.gz");
+    for (const ContrastSpec* contrast : plan.t_contrasts) {
+      files.push_back(contrast->name + ".estimate.nii.gz");
+      files.push_back(contrast->name + ".variance.nii.gz");
+    }
+  } else {
+    files.push_back("summaries.tsv");
+  }
+  std::error_code ec;
+  for (const std::string& file : files) {
+    if (!fs::is_regular_file(folder / file, ec)) return false;
+  }
+  try {
+    return ReadFileBytes((folder / kSourcesFile).string()) == key + "\n";
+  } catch (const Error&) {
+    return false;
+  }
+}
+
 }  // namespace
 
 void GatherStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log) {
   const GatherPlan plan = PlanGather(spec, options);
   std::ostream* out = options.quiet ? nullptr : &log;
+  const fs::path folder = fs::path(plan.root) / kPoolReadyFolder;
+  const std::string key = SourcesKey(spec, plan);
+  if (IsUpToDate(plan, folder, key)) {
+    if (out) *out << folder.string() << ": up to date, not gathered again\n";
+    return;
+  }
   OutputStage stage(plan.root, kPoolReadyFolder);
   WriteSubjectsTable(plan, stage, out);
   if (plan.kind == DataKind::kImage) {
@@ -398,6 +447,7 @@ void GatherStudy(const StudySpec& spec, const StudyOptions& options, std::ostrea
   } else {
     WriteRegionSummaries(plan, stage);
   }
+  WriteFileAtomically(stage.PathFor(kSourcesFile), key + "\n");
   stage.Commit();
   if (!out) return;
   std::vector<std::string> f_names;

@@ -2,6 +2,8 @@
 // subject's own maps in subjects.tsv order, participants columns are joined, and every
 // refusal (missing, stale, mixed or misaligned subjects) names the subjects and leaves
 // OUT/pool-ready/ as it was. Writes under $BOLDSUM_TMP (or the GoogleTest temp folder).
+#include "study/gather.h"
+
 #include <gtest/gtest.h>
 #include <unistd.h>
 
@@ -21,7 +23,6 @@
 #include "boldsum/error.h"
 #include "boldsum/io.h"
 #include "boldsum/study.h"
-#include "study/gather.h"
 
 namespace boldsum {
 namespace {
@@ -69,8 +70,8 @@ void WriteText(const std::string& path, const std::string& text) {
 // How one generated subject differs from the default.
 struct SubjectRecipe {
   std::string id;
-  bool regions = false;       // an ROI table instead of an image
-  bool without_b = false;     // no tune_b events: a_vs_b cannot be estimated
+  bool regions = false;    // an ROI table instead of an image
+  bool without_b = false;  // no tune_b events: a_vs_b cannot be estimated
   std::array<int, 3> dims = kDims;
   double x_offset_mm = 30.0;  // sform translation in x (another affine when changed)
 };
@@ -97,8 +98,8 @@ std::string WriteSubject(const ScratchFolder& folder, const SubjectRecipe& recip
   if (recipe.regions) {
     std::string table = "left\tright\n";
     for (int t = 0; t < kVolumes; ++t) {
-      table += std::to_string(200 + noise(random)) + "\t" + std::to_string(50 + noise(random)) +
-               "\n";
+      table +=
+          std::to_string(200 + noise(random)) + "\t" + std::to_string(50 + noise(random)) + "\n";
     }
     WriteText(folder.Path(data), table);
   } else {
@@ -113,8 +114,8 @@ std::string WriteSubject(const ScratchFolder& folder, const SubjectRecipe& recip
     }
     WriteImage(folder.Path(data), geometry, values, kVolumes);
   }
-  return "  - id: " + recipe.id + "\n    runs:\n      - {data: " + data +
-         ", events: " + recipe.id + "_events.tsv}\n";
+  return "  - id: " + recipe.id + "\n    runs:\n      - {data: " + data + ", events: " + recipe.id +
+         "_events.tsv}\n";
 }
 
 const char* const kModel =
@@ -254,8 +255,8 @@ TEST(GatherImages, VolumesFollowSubjectsTableRowsAndHoldEachSubjectsOwnMap) {
       EXPECT_TRUE(geometry.SameSpace(first));
       for (int i = 0; i < 3; ++i) {
         const std::string& id = expected[static_cast<size_t>(i) + 1][0];
-        const std::string own = folder.Path("results/" + id + "/" + contrast + "." + kind +
-                                            ".nii.gz");
+        const std::string own =
+            folder.Path("results/" + id + "/" + contrast + "." + kind + ".nii.gz");
         std::vector<float> values;
         if (contrast == "a_vs_b" && id == "s10") {
           EXPECT_FALSE(fs::exists(own));
@@ -296,6 +297,28 @@ TEST(GatherImages, ParticipantsColumnsAreJoinedWithOrWithoutThePrefix) {
       {"s10", "n/a", "37", "n/a", "n/a"},
       {"s01", "36", "36", "31", "musician"}};
   EXPECT_EQ(ReadRows(folder.Path("results/pool-ready/subjects.tsv")), expected);
+}
+
+TEST(GatherImages, AnUnchangedStudyIsNotGatheredAgainAndAChangedParticipantsTableIs) {
+  ScratchFolder folder;
+  WriteText(folder.Path("participants.tsv"), "participant_id\tage\ns01\t31\ns02\t27\ns10\t45\n");
+  const StudySpec spec = WriteStudy(folder, kThree, "participants: participants.tsv\n");
+  Fit(spec);
+  StudyOptions options = Quiet();
+  options.quiet = false;
+  std::ostringstream first, second, third;
+  GatherStudy(spec, options, first);
+  const auto before = Snapshot(folder.Path("results/pool-ready"));
+  const auto written = fs::last_write_time(folder.Path("results/pool-ready/subjects.tsv"));
+  GatherStudy(spec, options, second);
+  EXPECT_NE(second.str().find("pool-ready: up to date, not gathered again"), std::string::npos)
+      << second.str();
+  EXPECT_EQ(Snapshot(folder.Path("results/pool-ready")), before);
+  EXPECT_EQ(fs::last_write_time(folder.Path("results/pool-ready/subjects.tsv")), written);
+  WriteText(folder.Path("participants.tsv"), "participant_id\tage\ns01\t31\ns02\t28\ns10\t45\n");
+  GatherStudy(spec, options, third);
+  EXPECT_NE(third.str().find("gathered 3 subject(s)"), std::string::npos) << third.str();
+  EXPECT_EQ(ReadRows(folder.Path("results/pool-ready/subjects.tsv"))[1].back(), "28");
 }
 
 TEST(GatherImages, SubjectsWithoutResultsAreNamedAndNothingIsWritten) {
@@ -382,9 +405,8 @@ TEST(GatherRegions, SummariesAreTheSubjectsRowsInLongFormInConfigOrder) {
   GatherStudy(spec, Quiet(), log);
   const std::string out = folder.Path("results/pool-ready/");
   EXPECT_EQ(ReadRows(out + "subjects.tsv"),
-            (std::vector<std::vector<std::string>>{{"subject", "dof_a_vs_b", "dof_a_only"},
-                                                   {"r2", "36", "36"},
-                                                   {"r1", "n/a", "37"}}));
+            (std::vector<std::vector<std::string>>{
+                {"subject", "dof_a_vs_b", "dof_a_only"}, {"r2", "36", "36"}, {"r1", "n/a", "37"}}));
   EXPECT_FALSE(fs::exists(out + "mask.nii.gz"));
   // Expected rows rebuilt from each subject's own summary.tsv, cells verbatim.
   std::vector<std::vector<std::string>> expected = {
