@@ -1,10 +1,9 @@
 #include "study/fit_record.h"
 
 #include <cstring>
-#include <fstream>
-#include <iterator>
 
 #include "boldsum/error.h"
+#include "boldsum/io.h"
 
 namespace boldsum {
 namespace {
@@ -93,9 +92,12 @@ std::string SerializeFitRecord(const FitRecord& record) {
 }
 
 FitRecord LoadFitRecord(const std::string& path) {
-  std::ifstream file(path, std::ios::binary);
-  if (!file) throw Error(path + ": cannot read the saved fit");
-  std::string bytes((std::istreambuf_iterator<char>(file)), std::istreambuf_iterator<char>());
+  std::string bytes;
+  try {
+    bytes = ReadFileBytes(path);
+  } catch (const Error&) {
+    throw Error(path + ": cannot read the saved fit");
+  }
   if (bytes.compare(0, sizeof kMagic - 1, kMagic) != 0) {
     throw Error(path + ": not a boldsum fit record (or of another version)");
   }

@@ -13,6 +13,7 @@
 #include "study/fingerprint.h"
 #include "study/output_stage.h"
 #include "study/progress.h"
+#include "study/recorded_subject.h"
 #include "study/run_plan.h"
 #include "study/subject_fit.h"
 #include "study/subject_outputs.h"
@@ -93,7 +94,8 @@ int SubjectConcurrency(const StudySpec& spec, const std::vector<SubjectPlan>& pl
              static_cast<double>(sysconf(_SC_PAGE_SIZE));
   }
   double largest = 1;
-  for (const SubjectPlan& plan : plans) largest = std::max(largest, EstimateSubjectBytes(spec, plan));
+  for (const SubjectPlan& plan : plans)
+    largest = std::max(largest, EstimateSubjectBytes(spec, plan));
   const int by_memory = std::max(1, static_cast<int>(budget / largest));
   return std::max(1, std::min({threads, by_memory, static_cast<int>(plans.size())}));
 }
@@ -120,9 +122,25 @@ void RunSubject(const StudySpec& spec, SubjectPlan plan, const Decision& decisio
     for (const Diagnostic& warning : run.warnings.all()) progress->Log("  " + warning.ToString());
   }
   SubjectFit subject;
+  std::string earlier;  // the subject's folder when only contrasts changed
   if (decision.action == Action::kContrasts) {
-    subject = RefitContrasts(spec, std::move(plan),
-                             LoadFitRecord(SubjectDir(root, id) + "/fit_params.bin"), threads);
+    earlier = SubjectDir(root, id);
+    const RecordedSubject recorded = ReadRecordedSubject(earlier + "/summary.json");
+    // A contrast whose type and weights are unchanged keeps its image files.
+    const KeepContrastFiles keep = [&](const ContrastOutcome& outcome, const SubjectPlan& plan) {
+      const RecordedContrast* before = recorded.Find(outcome.spec->name);
+      if (recorded.kind != DataKind::kImage || before == nullptr || !before->estimable ||
+          before->outputs_key != ContrastOutputsKey(outcome, plan)) {
+        return false;
+      }
+      std::error_code ec;
+      for (const std::string& file : ContrastImageFiles(*outcome.spec)) {
+        if (!fs::is_regular_file(earlier + "/" + file, ec)) return false;
+      }
+      return true;
+    };
+    subject = RefitContrasts(spec, std::move(plan), LoadFitRecord(earlier + "/fit_params.bin"),
+                             threads, keep);
   } else {
     subject = FitSubject(spec, std::move(plan), threads, [&](int64_t read) {
       ThrowIfInterrupted();
@@ -134,14 +152,21 @@ void RunSubject(const StudySpec& spec, SubjectPlan plan, const Decision& decisio
     progress->Log("  " + id + ": warning: " + warning.message);
   }
   OutputStage stage(root, id);
-  WriteSubjectOutputs(spec, subject, decision.fingerprint, &stage);
+  WriteSubjectOutputs(spec, subject, decision.fingerprint, &stage, earlier);
   ThrowIfInterrupted();
   stage.Commit();
   int valid = 0;
   for (unsigned char ok : subject.valid) valid += ok;
   progress->Finished(id);
-  progress->Log(id + ": " + (decision.action == Action::kContrasts ? "contrasts recomputed" : "fitted") +
-                ", " + std::to_string(valid) + " of " + std::to_string(subject.valid.size()) +
+  int kept = 0;
+  for (const ContrastOutcome& outcome : subject.contrasts) kept += outcome.files_kept;
+  const std::string done = decision.action != Action::kContrasts ? "fitted"
+                           : kept == 0                           ? "contrasts recomputed"
+                                       : "contrasts recomputed (" + std::to_string(kept) + " of " +
+                                             std::to_string(subject.contrasts.size()) +
+                                             " unchanged, files kept)";
+  progress->Log(id + ": " + done + ", " + std::to_string(valid) + " of " +
+                std::to_string(subject.valid.size()) +
                 (subject.plan.kind == DataKind::kImage ? " voxels" : " regions") + " in " +
                 Seconds(std::chrono::steady_clock::now() - start));
 }
@@ -167,7 +192,7 @@ void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& 
   const std::string root = OutputRoot(spec, options);
   fs::create_directories(root);
   ChecksumCache checksums((fs::path(root) / ".checksums.tsv").string());
-  const ProgressMode mode = options.quiet          ? ProgressMode::kQuiet
+  const ProgressMode mode = options.quiet           ? ProgressMode::kQuiet
                             : options.live_progress ? ProgressMode::kLive
                                                     : ProgressMode::kLines;
   std::vector<Decision> decisions;
@@ -231,8 +256,9 @@ void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& 
   for (std::thread& thread : workers) thread.join();
   if (!failure.empty()) {
     if (IsInterrupted()) {
-      throw Error("interrupted: subjects finished before the interruption keep their outputs; "
-                  "the subjects in progress left no files");
+      throw Error(
+          "interrupted: subjects finished before the interruption keep their outputs; "
+          "the subjects in progress left no files");
     }
     throw Error(failure);
   }

@@ -42,6 +42,15 @@ std::string OutputStage::FolderFor(const std::string& relative) const {
   return path.string();
 }
 
+void OutputStage::Adopt(const std::string& relative, const std::string& from) const {
+  const std::string to = PathFor(relative);
+  std::error_code ec;
+  fs::create_hard_link(from, to, ec);
+  if (!ec) return;
+  fs::copy_file(from, to, fs::copy_options::overwrite_existing, ec);
+  if (ec) throw Error(to + ": cannot take over " + from + ": " + ec.message());
+}
+
 void OutputStage::Commit() {
   std::error_code ec;
   const std::string aside = staging_dir_ + ".old";

@@ -22,6 +22,11 @@ class OutputStage {
   // Path of folder `relative` inside the staging folder, created.
   std::string FolderFor(const std::string& relative) const;
 
+  // Puts the existing file `from` at `relative` inside the staging folder: a hard link
+  // (the file is not copied, and replacing the old folder leaves it intact), or a copy
+  // where the file system has no hard links. Throws Error when neither works.
+  void Adopt(const std::string& relative, const std::string& from) const;
+
   // Replaces OUT/<name> by the staging folder (old folder renamed aside, then removed).
   void Commit();
 

@@ -50,6 +50,7 @@ RecordedSubject ReadRecordedSubject(const std::string& path) {
         }
         contrast.dof_text = dof.Scalar();
       }
+      if (item["outputs_key"]) contrast.outputs_key = item["outputs_key"].as<std::string>();
       recorded.contrasts.push_back(contrast);
     }
     for (const YAML::Node& warning : Member(root, "warnings", path)) {

@@ -14,7 +14,8 @@ struct RecordedContrast {
   std::string name;
   bool is_f = false;
   bool estimable = false;
-  std::string dof_text;  // the dof exactly as summary.json writes it; "" when not estimable
+  std::string dof_text;     // the dof exactly as summary.json writes it; "" when not estimable
+  std::string outputs_key;  // see ContrastOutputsKey; "" when the file has none
 };
 
 // The parts of OUT/<subject>/summary.json that gather and the report need.

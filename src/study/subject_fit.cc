@@ -49,6 +49,7 @@ void CombineContrast(const SubjectFit& subject, ContrastOutcome* outcome, int th
   outcome->estimable = !usable.empty();
   if (!outcome->estimable) return;
   outcome->combined = CombineFixedEffects(usable);
+  if (outcome->files_kept) return;
   outcome->test = TestContrast(outcome->combined, outcome->spec->is_f, threads);
 }
 
@@ -77,7 +78,8 @@ std::vector<int64_t> AutomaticMask(const std::string& image_path) {
 namespace {
 
 // Validity across runs, then every contrast per run and combined.
-void EvaluateContrasts(const StudySpec& spec, SubjectFit* subject, int threads) {
+void EvaluateContrasts(const StudySpec& spec, SubjectFit* subject, int threads,
+                       const KeepContrastFiles& keep_files) {
   const std::vector<RunPlan>& runs = subject->plan.runs;
   FitOptions options;
   options.noise = spec.model.noise;
@@ -95,6 +97,7 @@ void EvaluateContrasts(const StudySpec& spec, SubjectFit* subject, int threads) 
       outcome.per_run.push_back(
           EstimateContrast(subject->runs[r], outcome.weights.back(), options));
     }
+    outcome.files_kept = keep_files && keep_files(outcome, subject->plan);
     CombineContrast(*subject, &outcome, threads);
     for (int index : outcome.runs_left_out) {
       subject->warnings.AddWarning(
@@ -114,7 +117,10 @@ class StreamSource : public BlockSource {
  public:
   StreamSource(VolumeStream* stream, int volumes, int voxels, int64_t volumes_before,
                const VolumeCallback& on_volumes)
-      : stream_(stream), volumes_(volumes), voxels_(voxels), read_(volumes_before),
+      : stream_(stream),
+        volumes_(volumes),
+        voxels_(voxels),
+        read_(volumes_before),
         on_volumes_(on_volumes) {}
   int n_volumes() const override { return volumes_; }
   int n_voxels() const override { return voxels_; }
@@ -169,12 +175,12 @@ SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads,
     volumes_read += run.n_volumes;
     if (on_volumes) on_volumes(volumes_read);
   }
-  EvaluateContrasts(spec, &subject, threads);
+  EvaluateContrasts(spec, &subject, threads, nullptr);
   return subject;
 }
 
-SubjectFit RefitContrasts(const StudySpec& spec, SubjectPlan plan, FitRecord record,
-                          int threads) {
+SubjectFit RefitContrasts(const StudySpec& spec, SubjectPlan plan, FitRecord record, int threads,
+                          const KeepContrastFiles& keep_files) {
   SubjectFit subject;
   subject.plan = std::move(plan);
   const std::vector<RunPlan>& runs = subject.plan.runs;
@@ -192,7 +198,7 @@ SubjectFit RefitContrasts(const StudySpec& spec, SubjectPlan plan, FitRecord rec
     subject.regions = runs.front().regions.names;
   }
   subject.runs = std::move(record.runs);
-  EvaluateContrasts(spec, &subject, threads);
+  EvaluateContrasts(spec, &subject, threads, keep_files);
   return subject;
 }
 

@@ -16,13 +16,16 @@ namespace boldsum {
 
 struct ContrastOutcome {
   const ContrastSpec* spec = nullptr;
-  std::vector<Eigen::MatrixXd> weights;      // per run (q x p over that run's columns)
-  std::vector<ContrastEstimate> per_run;     // per run; estimable == false if not
-  std::vector<int> runs_used;                // 1-based run indices
+  std::vector<Eigen::MatrixXd> weights;   // per run (q x p over that run's columns)
+  std::vector<ContrastEstimate> per_run;  // per run; estimable == false if not
+  std::vector<int> runs_used;             // 1-based run indices
   std::vector<int> runs_left_out;
-  bool estimable = false;                    // in at least one run
-  ContrastEstimate combined;                 // over runs_used
-  ContrastTest test;                         // t or F of `combined`, and z
+  bool estimable = false;     // in at least one run
+  ContrastEstimate combined;  // over runs_used
+  ContrastTest test;          // t or F of `combined`, and z; empty when
+                              // files_kept
+  bool files_kept = false;    // its files are taken over unchanged from
+                              // the subject's earlier outputs
 };
 
 struct SubjectFit {
@@ -34,9 +37,9 @@ struct SubjectFit {
   std::vector<std::string> regions;
   std::vector<RunFit> runs;
   std::vector<ContrastOutcome> contrasts;
-  std::vector<unsigned char> valid;          // per voxel: valid in every run
-  Diagnostics warnings;                      // runs left out of contrasts (design
-                                             // warnings stay with plan.runs)
+  std::vector<unsigned char> valid;  // per voxel: valid in every run
+  Diagnostics warnings;              // runs left out of contrasts (design
+                                     // warnings stay with plan.runs)
 };
 
 // Called with the volumes read so far (cumulative over the subject's runs); throwing
@@ -54,7 +57,11 @@ SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads,
 // The subject from a saved fit, with contrasts evaluated anew: bitwise the same as
 // FitSubject on the same inputs, without reading the data. Throws Error when the record
 // does not match the plan (run count, design width, voxel count).
-SubjectFit RefitContrasts(const StudySpec& spec, SubjectPlan plan, FitRecord record,
-                          int threads);
+// `keep_files` (optional) is asked for each contrast once its weights are known; when it
+// says yes, the contrast's test statistics are not computed and files_kept is set (the
+// caller takes its files over from earlier outputs of the same fit and weights).
+using KeepContrastFiles = std::function<bool(const ContrastOutcome&, const SubjectPlan&)>;
+SubjectFit RefitContrasts(const StudySpec& spec, SubjectPlan plan, FitRecord record, int threads,
+                          const KeepContrastFiles& keep_files = nullptr);
 
 }  // namespace boldsum

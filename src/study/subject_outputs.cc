@@ -1,6 +1,7 @@
 #include "study/subject_outputs.h"
 
 #include <cmath>
+#include <filesystem>
 #include <limits>
 #include <sstream>
 
@@ -20,6 +21,10 @@ std::vector<float> ToGrid(const SubjectFit& subject, const Eigen::VectorXd& valu
   return grid;
 }
 
+std::string RunDesignSvg(const RunPlan& run, const std::string& subject_id) {
+  return DesignToSvg(run.design, subject_id + " run " + std::to_string(run.index));
+}
+
 void WriteMap(const SubjectFit& subject, const Eigen::VectorXd& values, const std::string& path) {
   ImageGeometry geometry = subject.geometry;
   geometry.n_volumes = 1;
@@ -33,12 +38,32 @@ std::string ColumnWeightsJson(const Eigen::MatrixXd& weights, const DesignMatrix
     for (Eigen::Index j = 0; j < weights.cols(); ++j) {
       if (weights(i, j) == 0.0) continue;
       if (row.size() > 1) row += ", ";
-      row += JsonQuote(design.columns[static_cast<size_t>(j)].name) + ": " +
-             JsonNumber(weights(i, j));
+      row +=
+          JsonQuote(design.columns[static_cast<size_t>(j)].name) + ": " + JsonNumber(weights(i, j));
     }
     rows += (i ? ", " : "") + row + "}";
   }
   return rows + "]";
+}
+
+std::string WeightsByRunJson(const ContrastOutcome& outcome, const SubjectPlan& plan) {
+  std::string text = "[";
+  for (size_t r = 0; r < outcome.weights.size(); ++r) {
+    text += (r ? ", " : "") + ColumnWeightsJson(outcome.weights[r], plan.runs[r].design);
+  }
+  return text + "]";
+}
+
+// Takes `relative` over from the earlier folder when it is there, else writes it.
+template <typename Write>
+void AdoptOrWrite(const std::string& earlier, const std::string& relative, OutputStage* stage,
+                  const Write& write) {
+  std::error_code ec;
+  if (!earlier.empty() && std::filesystem::is_regular_file(earlier + "/" + relative, ec)) {
+    stage->Adopt(relative, earlier + "/" + relative);
+  } else {
+    write(stage->PathFor(relative));
+  }
 }
 
 std::string IntListJson(const std::vector<int>& values) {
@@ -114,7 +139,8 @@ std::string SummaryJson(const StudySpec& spec, const SubjectFit& subject,
     const RunPlan& run = plan.runs[r];
     const RunFit& fit = subject.runs[r];
     int censored = 0;
-    for (const DesignColumn& column : run.design.columns) censored += column.kind == ColumnKind::kCensor;
+    for (const DesignColumn& column : run.design.columns)
+      censored += column.kind == ColumnKind::kCensor;
     json << (r ? "," : "") << "\n    {\"run\": " << run.index
          << ", \"data\": " << JsonQuote(run.spec->data_path)
          << ",\n     \"events\": " << JsonQuote(run.spec->events_path)
@@ -140,14 +166,10 @@ std::string SummaryJson(const StudySpec& spec, const SubjectFit& subject,
          << ", \"dof\": " << JsonNumber(outcome.estimable ? outcome.combined.dof : std::nan(""))
          << ",\n     \"runs_used\": " << IntListJson(outcome.runs_used)
          << ", \"runs_left_out\": " << IntListJson(outcome.runs_left_out)
-         << ",\n     \"weights_by_run\": [";
-    for (size_t r = 0; r < outcome.weights.size(); ++r) {
-      json << (r ? ", " : "") << ColumnWeightsJson(outcome.weights[r], plan.runs[r].design);
-    }
-    json << "]}";
+         << ",\n     \"outputs_key\": " << JsonQuote(ContrastOutputsKey(outcome, plan))
+         << ",\n     \"weights_by_run\": " << WeightsByRunJson(outcome, plan) << "}";
   }
-  json << "\n  ],\n  \"warnings\": " << StringListJson(Messages(subject.warnings), "  ")
-       << "\n}\n";
+  json << "\n  ],\n  \"warnings\": " << StringListJson(Messages(subject.warnings), "  ") << "\n}\n";
   return json.str();
 }
 
@@ -159,8 +181,8 @@ struct RegionTables {
 };
 
 void AddRegionRows(const ContrastSpec& contrast, const ContrastEstimate& estimate,
-                   const ContrastTest& test, const SubjectFit& subject,
-                   const RunFit* run_fit, RegionTables* tables) {
+                   const ContrastTest& test, const SubjectFit& subject, const RunFit* run_fit,
+                   RegionTables* tables) {
   for (size_t v = 0; v < subject.regions.size(); ++v) {
     const auto i = static_cast<Eigen::Index>(v);
     const bool ok = estimate.valid[v] != 0;
@@ -174,8 +196,8 @@ void AddRegionRows(const ContrastSpec& contrast, const ContrastEstimate& estimat
       tables->t_rows += "\n";
     } else {
       tables->f_rows += contrast.name + "\t" + subject.regions[v] + "\t" + value(test.stat[i]) +
-                        "\t" + std::to_string(estimate.q) + "\t" + TsvNumber(estimate.dof) +
-                        "\t" + value(test.z[i]) + "\n";
+                        "\t" + std::to_string(estimate.q) + "\t" + TsvNumber(estimate.dof) + "\t" +
+                        value(test.z[i]) + "\n";
     }
   }
 }
@@ -197,31 +219,47 @@ std::string TsvNumber(double value) {
   return JsonNumber(value);
 }
 
-void WriteRunDesign(const RunPlan& run, const std::string& subject_id,
-                    const std::string& folder) {
+void WriteRunDesign(const RunPlan& run, const std::string& subject_id, const std::string& folder) {
   WriteFileAtomically(folder + "/design.tsv", DesignToTsv(run.design));
-  WriteFileAtomically(folder + "/design.svg",
-                      DesignToSvg(run.design, subject_id + " run " + std::to_string(run.index)));
+  WriteFileAtomically(folder + "/design.svg", RunDesignSvg(run, subject_id));
+}
+
+std::vector<std::string> ContrastImageFiles(const ContrastSpec& contrast) {
+  if (contrast.is_f) return {contrast.name + ".f.nii.gz", contrast.name + ".z.nii.gz"};
+  return {contrast.name + ".estimate.nii.gz", contrast.name + ".variance.nii.gz",
+          contrast.name + ".t.nii.gz", contrast.name + ".z.nii.gz"};
+}
+
+std::string ContrastOutputsKey(const ContrastOutcome& outcome, const SubjectPlan& plan) {
+  return Sha256(std::string(outcome.spec->is_f ? "F " : "t ") + WeightsByRunJson(outcome, plan));
 }
 
 void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject,
-                         const SubjectFingerprint& fingerprint, OutputStage* stage) {
+                         const SubjectFingerprint& fingerprint, OutputStage* stage,
+                         const std::string& earlier) {
   const SubjectPlan& plan = subject.plan;
   const bool images = plan.kind == DataKind::kImage;
   for (size_t r = 0; r < plan.runs.size(); ++r) {
     const RunPlan& run = plan.runs[r];
     const std::string folder = "run-" + std::to_string(run.index);
-    WriteRunDesign(run, plan.spec->id, stage->FolderFor(folder));
+    stage->FolderFor(folder);
+    AdoptOrWrite(earlier, folder + "/design.tsv", stage, [&](const std::string& path) {
+      WriteFileAtomically(path, DesignToTsv(run.design));
+    });
+    AdoptOrWrite(earlier, folder + "/design.svg", stage, [&](const std::string& path) {
+      WriteFileAtomically(path, RunDesignSvg(run, plan.spec->id));
+    });
     if (images) {
-      WriteMap(subject, subject.runs[r].rho, stage->PathFor(folder + "/ar1.nii.gz"));
+      AdoptOrWrite(earlier, folder + "/ar1.nii.gz", stage,
+                   [&](const std::string& path) { WriteMap(subject, subject.runs[r].rho, path); });
       continue;
     }
     RegionTables tables;
     for (const ContrastOutcome& outcome : subject.contrasts) {
       const ContrastEstimate& estimate = outcome.per_run[r];
       if (!estimate.estimable) continue;
-      AddRegionRows(*outcome.spec, estimate, TestContrast(estimate, outcome.spec->is_f),
-                    subject, &subject.runs[r], &tables);
+      AddRegionRows(*outcome.spec, estimate, TestContrast(estimate, outcome.spec->is_f), subject,
+                    &subject.runs[r], &tables);
     }
     WriteRegionTables(tables, /*with_ar1=*/true, folder, stage);
   }
@@ -232,6 +270,12 @@ void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject,
     const std::string& name = outcome.spec->name;
     if (!images) {
       AddRegionRows(*outcome.spec, outcome.combined, outcome.test, subject, nullptr, &tables);
+      continue;
+    }
+    if (outcome.files_kept) {
+      for (const std::string& file : ContrastImageFiles(*outcome.spec)) {
+        stage->Adopt(file, earlier + "/" + file);
+      }
       continue;
     }
     if (!outcome.spec->is_f) {
@@ -252,14 +296,17 @@ void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject,
     for (size_t v = 0; v < subject.voxels.size(); ++v) {
       if (subject.valid[v]) mask[static_cast<size_t>(subject.voxels[v])] = 1.0f;
     }
-    WriteImage(stage->PathFor("mask.nii.gz"), geometry, mask);
+    AdoptOrWrite(earlier, "mask.nii.gz", stage,
+                 [&](const std::string& path) { WriteImage(path, geometry, mask); });
   } else {
     WriteRegionTables(tables, /*with_ar1=*/false, "", stage);
   }
-  FitRecord record;
-  record.voxels = subject.voxels;
-  record.runs = subject.runs;
-  WriteFileAtomically(stage->PathFor("fit_params.bin"), SerializeFitRecord(record));
+  AdoptOrWrite(earlier, "fit_params.bin", stage, [&](const std::string& path) {
+    FitRecord record;
+    record.voxels = subject.voxels;
+    record.runs = subject.runs;
+    WriteFileAtomically(path, SerializeFitRecord(record));
+  });
   WriteFileAtomically(stage->PathFor("summary.json"), SummaryJson(spec, subject, fingerprint));
 }
 

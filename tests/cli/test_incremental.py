@@ -90,10 +90,15 @@ with tempfile.TemporaryDirectory() as root:
     text = open(config).read()
     text = text.replace("contrasts:\n", "contrasts:\n  press_only: {press: 1}\n", 1)
     text = re.sub(r"(?m)^  melodies_vs_rest:.*\n", "", text)
+    # Same name, other weights: its files must be recomputed, not kept.
+    text = text.replace("known_vs_new: {melody_known: 1, melody_new: -1}",
+                        "known_vs_new: {melody_known: 1, melody_new: -0.5}")
     open(config, "w").write(text)
     log = run("fit", config)
     expect("contrast edit recomputes contrasts", log.count("stale: contrasts changed, recomputing contrasts") == 3, log)
     expect("contrast edit gathers the stacks again", "gathered 3 subject(s)" in log, log)
+    expect("contrast edit keeps the unchanged contrast's files (any_melody) and recomputes the rest",
+           log.count("contrasts recomputed (1 of 3 unchanged, files kept)") == 3, log)
     expect("contrast edit equals a clean fit, bitwise", differing_files(out, clean_fit("contrast")) == [],
            differing_files(out, os.path.join(root, "clean-contrast")))
     expect("removed contrast's files are gone", not os.path.exists(os.path.join(out, "s01", "melodies_vs_rest.z.nii.gz")))
