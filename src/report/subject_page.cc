@@ -235,7 +235,8 @@ std::string NoiseSection(const SubjectInputs& in, const ImageFrame* frame) {
       " after prewhitening: Ljung-Box Q (Ljung &amp; Box 1978) of the prewhitened residuals, "
       "p &lt; 0.05 against chi-square with " +
       std::to_string(df) +
-      " degrees of freedom. With white residuals about 5% fail by chance; a much larger "
+      " degrees of freedom. With white innovations about 5% fail by chance and a few points "
+      "more is usual (the fitted regressors leave slight autocorrelation); a much larger "
       "share means AR(1) did not capture the noise and the variances are too small.");
   HtmlTable table;
   table.header = {"run", "tested", "p &lt; 0.05", "share"};
@@ -330,8 +331,10 @@ std::string RegionContrast(const SubjectInputs& in, const ContrastSpec& contrast
     ParseNumber(row[static_cast<size_t>(c_z)], &z);
     labels.push_back(row[static_cast<size_t>(c_region)]);
     zs.push_back(z);
-    rows.rows.push_back({Html(labels.back()), Html(row[static_cast<size_t>(c_value)]),
-                         Html(row[static_cast<size_t>(c_z)])});
+    double value = std::nan("");
+    ParseNumber(row[static_cast<size_t>(c_value)], &value);
+    rows.rows.push_back(
+        {Html(labels.back()), Html(LabelNumber(value, 4)), Html(LabelNumber(z, 4))});
   }
   if (labels.empty()) return Paragraph("No results for this contrast.", "note");
   double limit = 4;

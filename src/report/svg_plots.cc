@@ -223,15 +223,23 @@ std::string BarChartSvg(const std::vector<std::string>& labels, const std::vecto
   for (const std::string& label : labels) longest = std::max(longest, label.size());
   const double left = kCharWidth * longest + 16, plot_w = 360, row = 22, top = 28;
   const double width = left + plot_w + 60, height = top + row * labels.size() + 40;
+  // Signed values get a range symmetric about zero; values that are all >= 0 start at 0.
   double low = 0, high = 0;
   for (double v : values) {
     if (!std::isfinite(v)) continue;
     low = std::min(low, v);
     high = std::max(high, v);
   }
-  low = std::min(low, -reference);
   high = std::max(high, reference);
+  if (low < 0) {
+    low = -std::max(-low, high);
+    high = -low;
+  }
   if (!(high > low)) high = low + 1;
+  // Room for the value printed beyond the end of the longest bars.
+  const double pad = 0.12 * (high - low);
+  if (low < 0) low -= pad;
+  high += pad;
   std::string svg = Open(width, height, title);
   const auto x_of = [&](double v) { return left + (v - low) / (high - low) * plot_w; };
   for (size_t i = 0; i < labels.size(); ++i) {

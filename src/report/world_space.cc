@@ -6,34 +6,14 @@
 namespace boldsum {
 
 Affine VoxelToWorld(const ImageGeometry& g) {
-  if (g.sform_code > 0) return g.srow;
-  const double dx = g.voxel_mm[0], dy = g.voxel_mm[1], dz = g.voxel_mm[2];
-  if (g.qform_code <= 0) {
-    return {{{dx, 0, 0, 0}, {0, dy, 0, 0}, {0, 0, dz, 0}}};
-  }
-  double b = g.quatern_b, c = g.quatern_c, d = g.quatern_d;
-  double a = 1.0 - (b * b + c * c + d * d);
-  if (a < 1e-7) {  // nifti1.h: a 180-degree rotation; renormalise (b, c, d)
-    const double norm = std::sqrt(b * b + c * c + d * d);
-    b /= norm;
-    c /= norm;
-    d /= norm;
-    a = 0.0;
-  } else {
-    a = std::sqrt(a);
-  }
-  const double r[3][3] = {
-      {a * a + b * b - c * c - d * d, 2 * b * c - 2 * a * d, 2 * b * d + 2 * a * c},
-      {2 * b * c + 2 * a * d, a * a + c * c - b * b - d * d, 2 * c * d - 2 * a * b},
-      {2 * b * d - 2 * a * c, 2 * c * d + 2 * a * b, a * a + d * d - c * c - b * b}};
-  const double qfac = g.qfac < 0 ? -1.0 : 1.0;
-  const double scale[3] = {dx, dy, qfac * dz};
-  const double offset[3] = {g.qoffset_x, g.qoffset_y, g.qoffset_z};
+  // The map is affine: its columns are the steps along each voxel axis.
+  const std::array<double, 3> origin = g.WorldPosition(0, 0, 0);
   Affine affine;
-  for (int row = 0; row < 3; ++row) {
-    for (int col = 0; col < 3; ++col) affine[row][col] = r[row][col] * scale[col];
-    affine[row][3] = offset[row];
+  for (int axis = 0; axis < 3; ++axis) {
+    const std::array<double, 3> step = g.WorldPosition(axis == 0, axis == 1, axis == 2);
+    for (int row = 0; row < 3; ++row) affine[row][axis] = step[row] - origin[row];
   }
+  for (int row = 0; row < 3; ++row) affine[row][3] = origin[row];
   return affine;
 }
 

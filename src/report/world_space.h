@@ -9,10 +9,9 @@ namespace boldsum {
 
 using Affine = std::array<std::array<double, 4>, 3>;  // world = A [i j k 1]'
 
-// The voxel-to-world affine of the NIfTI-1 standard (nifti1.h, "3 different methods"):
-// the sform rows when sform_code > 0; otherwise, when qform_code > 0, the quaternion
-// rotation (a = sqrt(1 - b^2 - c^2 - d^2)) times the voxel sizes, the third one times
-// qfac, plus the offsets; otherwise the voxel sizes alone (method 1).
+// The voxel-to-world affine of ImageGeometry::WorldPosition (sform, else qform, else the
+// voxel sizes; the NIfTI-1 rules) as a matrix, for fractional voxel positions and axis
+// order.
 Affine VoxelToWorld(const ImageGeometry& geometry);
 
 std::array<double, 3> WorldPosition(const Affine& affine, double i, double j, double k);

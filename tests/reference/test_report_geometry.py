@@ -1,6 +1,6 @@
 """Where the report places things, and how it encodes pictures:
 
-- world coordinates of voxels (report/world_space.h) against nibabel's image affine
+- world coordinates of voxels (report/world_space.h over ImageGeometry::WorldPosition) against nibabel's image affine
   (Nifti1Image.affine: the sform when its code is set, else the qform) for an oblique
   sform, a qform-only image with a rotation and qfac = -1, and an axis-flipping sform;
   tolerance 1e-4 mm (the header stores float32);
