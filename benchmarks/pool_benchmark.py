@@ -24,20 +24,16 @@ import argparse
 import os
 import re
 import shutil
-import subprocess
 import sys
-import time
 
 import nibabel
 import numpy as np
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from measure import run_timed  # noqa: E402
+
 DIMS = (91, 109, 91)
 SEMI_AXES = (36, 44, 35)
-
-
-def load_average():
-    with open("/proc/loadavg") as f:
-        return f.read().split()[0]
 
 
 def write_input(folder, subjects, seed=11):
@@ -92,24 +88,13 @@ def write_config(folder):
 
 
 def timed_pool(boldsum, config, threads):
-    command = ["/usr/bin/time", "-v", boldsum, "pool", config, "--threads", str(threads)]
-    load = load_average()
-    start = time.perf_counter()
-    done = subprocess.run(command, capture_output=True, text=True)
-    wall = time.perf_counter() - start
-    if done.returncode != 0:
-        sys.exit("boldsum pool failed:\n" + done.stdout + done.stderr)
-
-    def field(name):
-        return float(re.search(re.escape(name) + r": ([\d.]+)", done.stderr).group(1))
+    t = run_timed([boldsum, "pool", config, "--threads", str(threads)])
     found = re.search(r"task: (\d+) of (\d+) pooled.*REML iterations median (\d+), max (\d+)",
-                      done.stdout)
+                      t["stdout"])
     if not found:
-        sys.exit("unexpected output of boldsum pool:\n" + done.stdout)
-    return {"wall": wall, "cpu": field("User time (seconds)") + field("System time (seconds)"),
-            "rss": field("Maximum resident set size (kbytes)") * 1024,
-            "pooled": int(found.group(1)), "median": int(found.group(3)),
-            "max": int(found.group(4)), "load": load}
+        sys.exit("unexpected output of boldsum pool:\n" + t["stdout"])
+    t.update(pooled=int(found.group(1)), median=int(found.group(3)), max=int(found.group(4)))
+    return t
 
 
 def main():

@@ -25,21 +25,18 @@ exits 0 once the figures are printed.
 import argparse
 import math
 import os
-import re
 import shutil
 import subprocess
 import sys
 import time
 
+sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
+from measure import load_average, run_timed  # noqa: E402
+
 PER_DEMO = 8            # volunteers per demo folder
 TARGET_UNCHANGED = 20.0  # first fit / unchanged re-run, at least
 TARGET_CONTRAST = 5.0    # refit / contrast-only re-run, at least
 ADDED_CONTRAST = "  known_only: {melody_known: 1}\n"
-
-
-def load_average():
-    with open("/proc/loadavg") as f:
-        return f.read().split()[0]
 
 
 def write_demos(boldsum, work, count):
@@ -77,18 +74,7 @@ def study_config(folders, subjects, extra_contrast):
 
 
 def timed_fit(boldsum, config, extra):
-    command = ["/usr/bin/time", "-v", boldsum, "fit", config, "--quiet"] + extra
-    start = time.perf_counter()
-    done = subprocess.run(command, stderr=subprocess.PIPE, text=True)
-    wall = time.perf_counter() - start
-    if done.returncode != 0:
-        sys.exit("boldsum fit failed:\n" + done.stderr)
-
-    def field(name):
-        return float(re.search(re.escape(name) + r": ([\d.]+)", done.stderr).group(1))
-    cpu = field("User time (seconds)") + field("System time (seconds)")
-    rss = field("Maximum resident set size (kbytes)") * 1024
-    return {"wall": wall, "cpu": cpu, "rss": rss, "load": load_average()}
+    return run_timed([boldsum, "fit", config, "--quiet"] + extra)
 
 
 def main():
