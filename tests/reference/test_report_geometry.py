@@ -1,7 +1,8 @@
 """Where the report places things, and how it encodes pictures:
 
-- world coordinates of voxels (report/world_space.h over ImageGeometry::WorldPosition) against nibabel's image affine
-  (Nifti1Image.affine: the sform when its code is set, else the qform) for an oblique
+- world coordinates of voxels (report/world_space.h over ImageGeometry::WorldPosition)
+  against nibabel's image affine (Nifti1Image.affine: the sform when its code is set,
+  else the qform) for an oblique
   sform, a qform-only image with a rotation and qfac = -1, and an axis-flipping sform;
   tolerance 1e-4 mm (the header stores float32);
 - peaks (report/peaks.h): local maxima and minima over 26 neighbours against
