@@ -34,4 +34,7 @@ struct ReportSummary {
 ReportSummary WriteStudyReport(const StudySpec& spec, const ReportOptions& options,
                                std::ostream& log);
 
+// Where WriteStudyReport puts the study page: OUT/report/index.html.
+std::string ReportIndexPath(const StudySpec& spec, const ReportOptions& options);
+
 }  // namespace boldsum

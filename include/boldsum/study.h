@@ -34,8 +34,9 @@ bool CheckStudy(const StudySpec& spec, const StudyOptions& options, std::ostream
 // the memory budget, each with a share of the threads; the results do not depend on
 // either. Outputs go to OUT/<subject>/, replaced only when the subject completed.
 // Throws Error on the first subject that fails, or when interrupted (Ctrl-C); subjects
-// finished before keep their new outputs.
-void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log);
+// finished before keep their new outputs. Returns how many subjects were brought up to
+// date (0: every selected subject was already up to date).
+int FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log);
 
 // Where a subject's saved results stand against the config and its inputs.
 struct SubjectStatus {

@@ -250,10 +250,15 @@ int main(int argc, char** argv) {
     }
     options.live_progress = isatty(STDOUT_FILENO) != 0;
     boldsum::InstallInterruptHandler();
-    boldsum::FitStudy(*spec, options, std::cout);
+    const int brought_up_to_date = boldsum::FitStudy(*spec, options, std::cout);
     // The report covers the whole study, so (like pool-ready/) it follows a fit of every
-    // subject only. Its failure leaves the finished fit as it is: a warning, exit 0.
-    if (!no_report && options.subjects.empty()) {
+    // subject only, and only when a subject changed or there is none yet. Its failure
+    // leaves the finished fit as it is: a warning, exit 0.
+    const std::string index = boldsum::ReportIndexPath(*spec, report_options);
+    if (!no_report && options.subjects.empty() && brought_up_to_date == 0 &&
+        std::filesystem::exists(index)) {
+      if (!options.quiet) std::cout << "report: no subject changed, " << index << " kept\n";
+    } else if (!no_report && options.subjects.empty()) {
       report_options.threads = options.threads;
       report_options.quiet = options.quiet;
       try {

@@ -342,4 +342,10 @@ ReportSummary WriteStudyReport(const StudySpec& spec, const ReportOptions& optio
   }
 }
 
+std::string ReportIndexPath(const StudySpec& spec, const ReportOptions& options) {
+  StudyOptions study_options;
+  study_options.output_dir = options.output_dir;
+  return (fs::path(OutputRoot(spec, study_options)) / kReportFolder / "index.html").string();
+}
+
 }  // namespace boldsum

@@ -173,7 +173,7 @@ void RunSubject(const StudySpec& spec, SubjectPlan plan, const Decision& decisio
 
 }  // namespace
 
-void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log) {
+int FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log) {
   // Every selected subject is planned (headers, designs) before any fitting, so that
   // input problems are reported together and nothing is written.
   Diagnostics diagnostics;
@@ -278,6 +278,7 @@ void FitStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& 
     std::istringstream lines(gather_log.str());
     for (std::string line; std::getline(lines, line);) progress.Log(line);
   }
+  return static_cast<int>(work.size());
 }
 
 std::vector<SubjectStatus> StudyStatus(const StudySpec& spec, const StudyOptions& options) {

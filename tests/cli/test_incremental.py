@@ -83,6 +83,7 @@ with tempfile.TemporaryDirectory() as root:
     log = run("fit", config)
     expect("unchanged re-run skips every subject", log.count("up to date, skipped") == 3, log)
     expect("unchanged re-run does not gather again", "pool-ready: up to date, not gathered again" in log, log)
+    expect("unchanged re-run keeps the report", "report: no subject changed" in log, log)
     expect("unchanged re-run rewrites nothing",
            all(os.stat(os.path.join(out, p)).st_mtime_ns == t for p, t in before.items()))
 
