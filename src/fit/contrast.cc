@@ -1,5 +1,6 @@
 // EstimateContrast: C beta and sigma^2 C (X'V^-1 X)^- C' per voxel, rebuilt from the
-// run's Gram matrices at each voxel's rho.
+// run's Gram matrices at each voxel's rho: with V, M(rho) of design_basis.h,
+// C_k (X_k'V^-1 X_k)^-1 C_k' = (V'C_k')' M(rho)^-1 (V'C_k').
 #include <cmath>
 #include <limits>
 #include <string>
@@ -80,8 +81,8 @@ ContrastEstimate EstimateContrast(const RunFit& fit, const Eigen::MatrixXd& c,
   }
   if (c.rows() < 1 || c.cols() != p) {
     throw Error("contrast matrix is " + std::to_string(c.rows()) + " x " +
-                std::to_string(c.cols()) + "; it needs at least one row and " +
-                std::to_string(p) + " columns (one per design column)");
+                std::to_string(c.cols()) + "; it needs at least one row and " + std::to_string(p) +
+                " columns (one per design column)");
   }
   if (!c.allFinite()) throw Error("contrast matrix has a non-finite weight");
   const Eigen::Index q = c.rows();
@@ -94,23 +95,22 @@ ContrastEstimate EstimateContrast(const RunFit& fit, const Eigen::MatrixXd& c,
   out.valid.assign(static_cast<size_t>(n_vox), 0);
   if (!out.estimable) return out;
 
-  const fit::KeptGram gram = fit::SelectKept(fit.gram, fit.kept_columns);
+  const fit::DiagonalGram diagonal =
+      fit::DiagonaliseGram(fit::SelectKept(fit.gram, fit.kept_columns));
   const Eigen::Index r = static_cast<Eigen::Index>(fit.kept_columns.size());
   Eigen::MatrixXd ck(q, r);
   for (Eigen::Index i = 0; i < r; ++i) ck.col(i) = c.col(fit.kept_columns[i]);
+  const Eigen::MatrixXd ct = diagonal.v.transpose() * ck.transpose();  // r x q
 
   fit::ForEachChunk(n_vox, options.threads, [&](Eigen::Index v0, Eigen::Index v1) {
-    Eigen::MatrixXd a(r, r), zc(r, q), cov(q, q);
+    fit::WhitenedSolver solver(r);
+    Eigen::MatrixXd cov(q, q);
     Eigen::VectorXd beta_k(r);
     for (Eigen::Index v = v0; v < v1; ++v) {
       if (!fit.valid[static_cast<size_t>(v)]) continue;
-      // (X'V^-1 X)^-1 = L^-T L^-1 with A = LL', so C A^-1 C' = (L^-1 C')'(L^-1 C').
-      fit::WhitenedGram(gram, fit.rho(v), &a);
-      Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(a);
-      if (llt.info() != Eigen::Success) continue;
-      zc = ck.transpose();
-      llt.matrixL().solveInPlace(zc);
-      cov.noalias() = fit.sigma2(v) * (zc.transpose() * zc);
+      if (!solver.Factor(diagonal, fit.rho(v))) continue;
+      solver.InverseForm(ct, &cov);
+      cov *= fit.sigma2(v);
       for (Eigen::Index i = 0; i < r; ++i) beta_k(i) = fit.beta(fit.kept_columns[i], v);
       out.effect.col(v).noalias() = ck * beta_k;
       out.covariance.col(v) = Eigen::Map<const Eigen::VectorXd>(cov.data(), q * q);

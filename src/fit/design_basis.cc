@@ -26,8 +26,8 @@ void CheckFinite(const Eigen::MatrixXd& x) {
   for (Eigen::Index j = 0; j < x.cols(); ++j) {
     for (Eigen::Index i = 0; i < x.rows(); ++i) {
       if (!std::isfinite(x(i, j))) {
-        throw Error("design matrix: non-finite value " + std::to_string(x(i, j)) +
-                    " at row " + std::to_string(i) + ", column " + std::to_string(j) +
+        throw Error("design matrix: non-finite value " + std::to_string(x(i, j)) + " at row " +
+                    std::to_string(i) + ", column " + std::to_string(j) +
                     "; every entry must be finite");
       }
     }
@@ -49,13 +49,109 @@ KeptGram SelectKept(const DesignGram& gram, const std::vector<int>& kept) {
   return g;
 }
 
+DiagonalGram DiagonaliseGram(const KeptGram& g) {
+  const Eigen::Index r = g.xtx.rows();
+  // Unit-diagonal scaling first, so that column units do not enter the eigensolver's
+  // rounding; V is scaled back afterwards (V = S^-1 V_s keeps V' xtx V = I).
+  Eigen::VectorXd inv_norm(r);
+  for (Eigen::Index i = 0; i < r; ++i) {
+    if (!(g.xtx(i, i) > 0)) {
+      throw Error("design matrix: a kept column has zero norm (numerical breakdown)");
+    }
+    inv_norm(i) = 1.0 / std::sqrt(g.xtx(i, i));
+  }
+  const Eigen::MatrixXd b = inv_norm.asDiagonal() * g.xtx * inv_norm.asDiagonal();
+  const Eigen::MatrixXd a = inv_norm.asDiagonal() * g.lag * inv_norm.asDiagonal();
+  Eigen::GeneralizedSelfAdjointEigenSolver<Eigen::MatrixXd> solver(
+      a, b, Eigen::ComputeEigenvectors | Eigen::Ax_lBx);
+  if (solver.info() != Eigen::Success) {
+    throw Error(
+        "design matrix: the Gram matrix of the kept columns is not positive "
+        "definite (numerical breakdown)");
+  }
+  DiagonalGram out;
+  out.v = inv_norm.asDiagonal() * solver.eigenvectors();
+  // Rayleigh quotients of L + L' lie in (-2, 2); clamping only removes rounding.
+  out.lambda = solver.eigenvalues().cwiseMax(-2.0).cwiseMin(2.0);
+  const Eigen::MatrixXd ends = out.v.transpose() * g.ends * out.v;
+  Eigen::SelfAdjointEigenSolver<Eigen::MatrixXd> ends_solver(0.5 * (ends + ends.transpose()));
+  out.f = Eigen::MatrixXd::Zero(r, 2);
+  for (Eigen::Index k = 0; k < std::min<Eigen::Index>(2, r); ++k) {
+    const Eigen::Index i = r - 1 - k;  // eigenvalues ascending: the two largest
+    out.f.col(k) =
+        std::sqrt(std::max(ends_solver.eigenvalues()(i), 0.0)) * ends_solver.eigenvectors().col(i);
+  }
+  return out;
+}
+
+bool WhitenedSolver::Factor(const DiagonalGram& g, double rho) {
+  // d_i = 1 + rho^2 - rho lambda_i as a sum of two non-negative terms, so that it keeps
+  // its relative accuracy as rho -> +-1 and lambda -> +-2; d_i >= (1 - |rho|)^2 > 0 for
+  // |rho| < 1 (the fit clamps rho to [-0.99, 0.99]).
+  if (!(std::abs(rho) < 1.0)) return false;
+  if (rho >= 0) {
+    const double a = (1.0 - rho) * (1.0 - rho);
+    inv_d_ = (a + rho * (2.0 - g.lambda.array())).inverse();
+  } else {
+    const double a = (1.0 + rho) * (1.0 + rho);
+    inv_d_ = (a - rho * (2.0 + g.lambda.array())).inverse();
+  }
+  rank2_ = rho != 0;
+  if (!rank2_) return true;
+  dg_.noalias() = rho * (inv_d_.asDiagonal() * g.f);
+  // K = I - G' D^-1 G with G = rho F.
+  const double k00 = 1.0 - rho * g.f.col(0).dot(dg_.col(0));
+  const double k10 = -rho * g.f.col(1).dot(dg_.col(0));
+  const double k11 = 1.0 - rho * g.f.col(1).dot(dg_.col(1));
+  if (!(k00 > 0)) return false;
+  k00_ = std::sqrt(k00);
+  k10_ = k10 / k00_;
+  const double rest = k11 - k10_ * k10_;
+  if (!(rest > 0)) return false;
+  k11_ = std::sqrt(rest);
+  return true;
+}
+
+double WhitenedSolver::SolveInPlace(Eigen::Ref<Eigen::VectorXd> x) const {
+  // M^-1 x = D^-1 x + D^-1 G K^-1 G' D^-1 x; x' M^-1 x = x' D^-1 x + |L^-1 G' D^-1 x|^2.
+  double quad = x.dot(inv_d_.cwiseProduct(x));
+  if (!rank2_) {
+    x.array() *= inv_d_.array();
+    return quad;
+  }
+  const double s0 = dg_.col(0).dot(x);
+  const double s1 = dg_.col(1).dot(x);
+  const double t0 = s0 / k00_;
+  const double t1 = (s1 - k10_ * t0) / k11_;
+  quad += t0 * t0 + t1 * t1;
+  // K^-1 s = L^-T (L^-1 s).
+  const double u1 = t1 / k11_;
+  const double u0 = (t0 - k10_ * u1) / k00_;
+  x.array() *= inv_d_.array();
+  x.noalias() += u0 * dg_.col(0) + u1 * dg_.col(1);
+  return quad;
+}
+
+void WhitenedSolver::InverseForm(const Eigen::MatrixXd& c, Eigen::MatrixXd* out) const {
+  // c' M^-1 c = c' D^-1 c + T'T with T = L^-1 G' D^-1 c (2 x q).
+  out->noalias() = c.transpose() * inv_d_.asDiagonal() * c;
+  if (!rank2_) return;
+  const Eigen::Index q = c.cols();
+  Eigen::Matrix<double, 2, Eigen::Dynamic> t(2, q);
+  for (Eigen::Index j = 0; j < q; ++j) {
+    t(0, j) = dg_.col(0).dot(c.col(j)) / k00_;
+    t(1, j) = (dg_.col(1).dot(c.col(j)) - k10_ * t(0, j)) / k11_;
+  }
+  out->noalias() += t.transpose() * t;
+}
+
 DesignBasis AnalyseDesign(const Eigen::MatrixXd& x) {
   DesignBasis b;
   b.n = static_cast<int>(x.rows());
   b.p = static_cast<int>(x.cols());
   if (b.n == 0 || b.p == 0) {
-    throw Error("design matrix is empty (" + std::to_string(b.n) + " rows, " +
-                std::to_string(b.p) + " columns)");
+    throw Error("design matrix is empty (" + std::to_string(b.n) + " rows, " + std::to_string(b.p) +
+                " columns)");
   }
   CheckFinite(x);
   const Eigen::Index n = b.n;
@@ -85,16 +181,13 @@ DesignBasis AnalyseDesign(const Eigen::MatrixXd& x) {
   b.gram.lag = x.transpose() * dx;
   b.gram.ends = x.row(0).transpose() * x.row(0) + x.row(n - 1).transpose() * x.row(n - 1);
   b.kept_gram = SelectKept(b.gram, b.kept);
-  b.first_k = xk.row(0).transpose();
-  b.last_k = xk.row(n - 1).transpose();
+  b.diagonal = DiagonaliseGram(b.kept_gram);
+  const Eigen::MatrixXd& v = b.diagonal.v;
+  b.first_t = v.transpose() * xk.row(0).transpose();
+  b.last_t = v.transpose() * xk.row(n - 1).transpose();
   b.z.resize(n, 2 * r);
-  b.z.leftCols(r) = xk;
-  b.z.rightCols(r) = ApplyLagSum(xk);
-  b.ols.compute(b.kept_gram.xtx);
-  if (b.ols.info() != Eigen::Success) {
-    throw Error("design matrix: the Gram matrix of the kept columns is not positive "
-                "definite (numerical breakdown)");
-  }
+  b.z.leftCols(r) = xk * v;
+  b.z.rightCols(r) = ApplyLagSum(b.z.leftCols(r));
 
   // Bias-correction system from an orthonormal basis Q (N x r) of the column space:
   // H = QQ', tr(RR) = N - r, tr(RD) = -tr(Q'DQ), tr(RDRD) = tr(DD) - 2 tr(HDD) +
@@ -107,14 +200,16 @@ DesignBasis AnalyseDesign(const Eigen::MatrixXd& x) {
   b.m(1, 0) = b.m(0, 1);
   b.m(1, 1) = 2.0 * static_cast<double>(n - 1) - 2.0 * dq.squaredNorm() + qdq.squaredNorm();
 
-  // The constant series in the span of the kept columns.
+  // The constant series in the span of the kept columns, by least squares on them (full
+  // column rank). Not qr.solve() on all columns: it counts pivots against its own
+  // eps-sized threshold, not kRankTolerance, so an exactly duplicated column can enter
+  // the solve through a rounding-level pivot and spoil the result.
   const Eigen::VectorXd ones = Eigen::VectorXd::Ones(n);
-  // The QR solve sets the coefficients of the columns not kept to zero.
-  const Eigen::VectorXd a_scaled = qr.solve(ones);
+  Eigen::MatrixXd xk_scaled(n, r);
+  for (Eigen::Index i = 0; i < r; ++i) xk_scaled.col(i) = xs.col(b.kept[i]);
+  const Eigen::VectorXd a_scaled = xk_scaled.householderQr().solve(ones);
   b.constant_k.resize(r);
-  for (Eigen::Index i = 0; i < r; ++i) {
-    b.constant_k(i) = a_scaled(b.kept[i]) / norms(b.kept[i]);
-  }
+  for (Eigen::Index i = 0; i < r; ++i) b.constant_k(i) = a_scaled(i) / norms(b.kept[i]);
   b.has_constant = (xk * b.constant_k - ones).norm() <= 1e-9 * std::sqrt(static_cast<double>(n));
   if (!b.has_constant) b.constant_k.setZero();
   return b;

@@ -1,14 +1,17 @@
 // FitRun: OLS, bias-corrected AR(1) and exact Prais-Winsten GLS per voxel, all from the
 // sufficient statistics of fit/sufficient_stats.h (one pass over the data).
 //
-// Per voxel, with X_k the kept columns (r of them), D = L + L' and y after the offset:
-// 1. OLS: b = (X_k'X_k)^-1 X_k'y; e'e = y'y - b'X_k'y; e'De = y'Dy - 2 b'X_k'Dy +
-//    b'X_k'DX_k b.
+// Per voxel, with X_k the kept columns (r of them), D = L + L', y after the offset, and
+// the basis V of design_basis.h (V'X_k'X_k V = I, V'X_k'DX_k V = diag(lambda)), the sums
+// arrive as g1 = V'X_k'y and g2 = V'X_k'Dy:
+// 1. OLS: b = (X_k'X_k)^-1 X_k'y = V g1; e'e = y'y - b'X_k'y = y'y - |g1|^2;
+//    e'De = y'Dy - 2 b'X_k'Dy + b'X_k'DX_k b = y'Dy - 2 g1'g2 + sum lambda_i g1_i^2.
 // 2. AR(1), Worsley et al. (2002, NeuroImage 15:1-15): m (g0, g1)' = (e'e, e'De)' with
 //    m_jk = tr(R Dj R Dk), D0 = I, D1 = D (design_basis.h); rho = g1 / g0 in [-0.99, 0.99].
 // 3. GLS at rho (Prais & Winsten 1954, via <Wa, Wb> = (1 + rho^2) a'b - rho a'Db -
-//    rho^2 (a_0 b_0 + a_{N-1} b_{N-1})): A = X_k'V^-1 X_k, A = LL' (Cholesky),
-//    c = L^-1 X_k'V^-1 y, beta = L^-T c, whitened RSS = y'V^-1 y - c'c.
+//    rho^2 (a_0 b_0 + a_{N-1} b_{N-1})): with c = V'X_k'V^-1 y and M(rho) = V'X_k'V^-1 X_k V
+//    (diagonal plus rank 2, solved exactly by WhitenedSolver), beta = V M^-1 c and the
+//    whitened RSS = y'V^-1 y - c'M^-1 c.
 // 4. sigma2 = RSS / (N - r), the innovation variance; noise: none uses rho = 0, RSS = e'e.
 // beta of the columns not kept is 0; the offset is added back as offset * a (X_k a = 1).
 #include <algorithm>
@@ -82,69 +85,70 @@ RunFit FitRun(const Eigen::MatrixXd& x, BlockSource* data, const FitOptions& opt
   // 0 valid, 1 fitted, 2 non-finite, 3 zero residual variance; reduced to counts below.
   std::vector<unsigned char> state(static_cast<size_t>(n_vox), 0);
 
+  const fit::DiagonalGram& diagonal = basis.diagonal;
   fit::ForEachChunk(n_vox, options.threads, [&](Eigen::Index v0, Eigen::Index v1) {
     const Eigen::Index w = v1 - v0;
-    const auto xty = s.g.block(0, v0, r, w);
-    const auto xdy = s.g.block(r, v0, r, w);
-    const Eigen::MatrixXd b_ols = basis.ols.solve(xty);
-    const Eigen::MatrixXd xdx_b = basis.kept_gram.lag * b_ols;
-    Eigen::MatrixXd a(r, r);
-    Eigen::VectorXd coef(r);
+    const auto g1 = s.g.block(0, v0, r, w);
+    const auto g2 = s.g.block(r, v0, r, w);
+    Eigen::MatrixXd coef(r, w);  // M^-1 c per voxel (NaN where not fitted)
+    fit::WhitenedSolver solver(r);
     for (Eigen::Index j = 0; j < w; ++j) {
       const Eigen::Index v = v0 + j;
       const double yy = s.yy(v);
       unsigned char& st = state[static_cast<size_t>(v)];
+      coef.col(j).setConstant(kNaN);
       if (!std::isfinite(yy) || !std::isfinite(s.offset(v)) || !std::isfinite(s.ydy(v))) {
         st = 2;
-        out.beta.col(v).setConstant(kNaN);
         continue;
       }
-      // OLS residual sums: e'e = y'y - b'X'y, e'De = y'Dy - 2 b'X'Dy + b'X'DX b.
-      const double s0 = yy - b_ols.col(j).dot(xty.col(j));
+      const double s0 = yy - g1.col(j).squaredNorm();
       if (!(s0 > kZeroResidual * static_cast<double>(basis.n) * yy)) {
         st = 3;
-        out.beta.col(v).setConstant(kNaN);
         continue;
       }
       double rho = 0.0;
       double rss = s0;
       if (ar1) {
         const double s1 =
-            s.ydy(v) - 2.0 * b_ols.col(j).dot(xdy.col(j)) + b_ols.col(j).dot(xdx_b.col(j));
+            s.ydy(v) + g1.col(j).dot(diagonal.lambda.cwiseProduct(g1.col(j)) - 2.0 * g2.col(j));
         rho = BiasCorrectedRho(m_inverse, s0, s1);
-        // X'V^-1 y and y'V^-1 y by the Prais-Winsten identity; then with A = LL',
-        // c = L^-1 X'V^-1 y: beta = L^-T c and whitened RSS = y'V^-1 y - c'c.
+        // X'V^-1 y and y'V^-1 y by the Prais-Winsten identity, in the basis V.
         const double c0 = 1.0 + rho * rho;
         const double c2 = rho * rho;
         const double y0 = s.first(v);
         const double yn = s.last(v);
-        fit::WhitenedGram(basis.kept_gram, rho, &a);
-        coef.noalias() = c0 * xty.col(j) - rho * xdy.col(j) -
-                         c2 * (y0 * basis.first_k + yn * basis.last_k);
+        coef.col(j).noalias() =
+            c0 * g1.col(j) - rho * g2.col(j) - c2 * (y0 * basis.first_t + yn * basis.last_t);
         const double yvy = c0 * yy - rho * s.ydy(v) - c2 * (y0 * y0 + yn * yn);
-        Eigen::LLT<Eigen::Ref<Eigen::MatrixXd>> llt(a);
-        if (llt.info() != Eigen::Success) {
+        if (!solver.Factor(diagonal, rho)) {
+          coef.col(j).setConstant(kNaN);
           st = 3;
-          out.beta.col(v).setConstant(kNaN);
           continue;
         }
-        llt.matrixL().solveInPlace(coef);
-        rss = yvy - coef.squaredNorm();
-        llt.matrixU().solveInPlace(coef);
+        rss = yvy - solver.SolveInPlace(coef.col(j));
         if (!(rss > 0)) {
+          coef.col(j).setConstant(kNaN);
           st = 3;
-          out.beta.col(v).setConstant(kNaN);
           continue;
         }
       } else {
-        coef = b_ols.col(j);
-      }
-      for (Eigen::Index i = 0; i < r; ++i) {
-        out.beta(basis.kept[i], v) = coef(i) + s.offset(v) * basis.constant_k(i);
+        coef.col(j) = g1.col(j);
       }
       out.rho(v) = rho;
       out.sigma2(v) = rss / dof;
       st = 1;
+    }
+    // beta_k = V coef + offset a; each column of the product depends on that voxel alone.
+    const Eigen::MatrixXd beta_k = diagonal.v * coef;
+    for (Eigen::Index j = 0; j < w; ++j) {
+      const Eigen::Index v = v0 + j;
+      if (state[static_cast<size_t>(v)] != 1) {
+        out.beta.col(v).setConstant(kNaN);
+        continue;
+      }
+      for (Eigen::Index i = 0; i < r; ++i) {
+        out.beta(basis.kept[i], v) = beta_k(i, j) + s.offset(v) * basis.constant_k(i);
+      }
     }
   });
 
