@@ -1,9 +1,10 @@
 // Distributions, and the conversion of t and F statistics to z through the upper tail.
 // Every function is thread-safe and never throws: a NaN argument, dof <= 0, f < 0 or
 // log_p > 0 gives NaN. Accuracy (measured against mpmath at 50 digits in
-// tests/reference/test_z_transform.py): z and log P to ~5e-16 relative for t, to
-// ~1.5e-14 for F (Boost.Math's incomplete beta at dof2 ~1e6); near z = 0 the error of
-// ZFromF is absolute. Beyond dof = 1/eps (4.5e15) t is treated as normal, as Boost does.
+// tests/reference/test_z_transform.py): log P to ~5e-16 relative for t and z to ~1e-15
+// (the body, tail probability >= 1e-20, is evaluated in double precision), to ~1.5e-14
+// for F (Boost.Math's incomplete beta at dof2 ~1e6); near z = 0 the error of ZFromF is
+// absolute. Beyond dof = 1/eps (4.5e15) t is treated as normal, as Boost does.
 #pragma once
 
 namespace boldsum {

@@ -162,11 +162,19 @@ def main():
     # Very large dof, beyond any fMRI design, where a continued fraction for the tail
     # would cancel: a smaller grid (the mpmath reference integrates the density).
     t_cases += [(t, d) for t in (0.5, 3.0, 37.0, 40.0, 100.0, 1000.0) for d in (1e8, 1e10, 1e12, 1e15)]
+    # The body, which ZFromT evaluates in double precision, more densely at the dofs of
+    # whole-brain runs (N - p for N = 300 and 1200), on both sides of t = 1 where the
+    # central and upper-tail formulas meet.
+    t_cases += [(s * t, d) for t in (0.05, 0.3, 0.7, 0.95, 1.05, 1.5, 2.5, 4.0, 6.0, 8.0)
+                for d in (20.0, 276.0, 1170.0) for s in (1, -1)]
     f_values = [1e-8, 1e-3, 0.1, 0.5, 1.0, 2.0, 5.0, 10.0, 100.0, 1e3, 1e4, 1e5, 1e6]
     f_dofs = [(d1, d2) for d1 in (1, 2, 3, 5, 10, 20) for d2 in (1.0, 2.5, 10.0, 30.0, 200.0, 1e4)]
     f_cases = [(f, d1, d2) for f in f_values for (d1, d2) in f_dofs]
     # dof2 = 1e6 needs the slower integral reference: a smaller grid.
     f_cases += [(f, d1, 1e6) for f in (1e-3, 0.5, 1.0, 10.0, 1e3, 1e6) for d1 in (1, 5, 20)]
+    # The double-precision body of ZFromF (dof1 <= 3) and the promoted path just above it.
+    f_cases += [(f, d1, d2) for f in (0.05, 0.4, 0.9, 1.3, 3.0, 8.0, 30.0)
+                for d1 in (1, 2, 2.5, 3, 4) for d2 in (276.0, 1170.0, 4680.0)]
     # Lower tail below 1e-300 (f^(d1/2) underflows): z far below -37.
     f_cases += [(f, d1, d2) for f in (1e-40, 1e-100) for d1 in (10, 20) for d2 in (2.5, 200.0)]
     logbeta_cases = [(0.5, 0.5), (100.0, 0.5), (5e5, 0.5), (5e5, 10.0), (300.0, 400.0),
