@@ -51,6 +51,38 @@ TEST(Sha256, FileMatchesBytes) {
   }
 }
 
+std::string Digest(const std::string& bytes, bool allow_sha_extensions) {
+  Sha256Hasher hasher(allow_sha_extensions);
+  hasher.Update(bytes.data(), bytes.size());
+  return hasher.HexDigest();
+}
+
+// The portable compression function and the x86 SHA-extension one (taken when the CPU
+// has it) on the FIPS 180-2 Appendix B examples, whole and fed in odd pieces.
+TEST(Sha256, BothCompressionPathsGiveThePublishedDigests) {
+  const std::pair<std::string, std::string> examples[] = {
+      {"abc", "ba7816bf8f01cfea414140de5dae2223b00361a396177a9cb410ff61f20015ad"},
+      {"abcdbcdecdefdefgefghfghighijhijkijkljklmklmnlmnomnopnopq",
+       "248d6a61d20638b8e5c026930c3e6039a33ce45964ff2167f6ecedd419db06c1"},
+      {std::string(1000000, 'a'),
+       "cdc76e5c9914fb9281a1c7e284d73e67f1809a48a497200e046d39ccc7112cd0"}};
+  for (bool allow : {false, true}) {
+    for (const auto& [text, digest] : examples) {
+      EXPECT_EQ(Digest(text, allow), digest) << "allow_sha_extensions " << allow;
+      Sha256Hasher pieces(allow);
+      for (size_t at = 0; at < text.size(); at += 997) {
+        pieces.Update(text.data() + at, std::min<size_t>(997, text.size() - at));
+      }
+      EXPECT_EQ(pieces.HexDigest(), digest) << "allow_sha_extensions " << allow;
+    }
+  }
+}
+
+// Property: both compression paths agree on any bytes.
+RC_GTEST_PROP(Sha256, CompressionPathsAgree, (const std::string& text)) {
+  RC_ASSERT(Digest(text, true) == Digest(text, false));
+}
+
 // Property: feeding the bytes in pieces of any sizes gives the one-shot digest.
 RC_GTEST_PROP(Sha256, PiecesGiveTheSameDigest, (const std::string& text)) {
   const auto cuts = *rc::gen::container<std::vector<int>>(rc::gen::inRange(0, 130));
