@@ -21,6 +21,7 @@
 
 #include "boldsum/error.h"
 #include "boldsum/fit.h"
+#include "common/huge_pages.h"
 #include "fit/design_basis.h"
 #include "fit/parallel.h"
 #include "fit/sufficient_stats.h"
@@ -79,7 +80,7 @@ RunFit FitRun(const Eigen::MatrixXd& x, BlockSource* data, const FitOptions& opt
   out.dof = basis.n - basis.rank;
   out.kept_columns = basis.kept;
   out.gram = basis.gram;
-  out.beta = Eigen::MatrixXd::Zero(basis.p, n_vox);
+  out.beta = FilledMatrix(basis.p, n_vox, 0.0);
   out.sigma2 = Eigen::VectorXd::Constant(n_vox, kNaN);
   out.rho = Eigen::VectorXd::Constant(n_vox, kNaN);
   // 0 valid, 1 fitted, 2 non-finite, 3 zero residual variance; reduced to counts below.

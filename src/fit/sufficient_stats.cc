@@ -4,6 +4,7 @@
 #include <vector>
 
 #include "boldsum/error.h"
+#include "common/huge_pages.h"
 #include "fit/parallel.h"
 
 #if defined(__x86_64__) && defined(__GNUC__)
@@ -138,7 +139,7 @@ SufficientStats AccumulateStats(const DesignBasis& basis, BlockSource* source, i
   if (n_vox < 1) throw Error("data has no voxels");
   const Eigen::Index two_r = basis.z.cols();
   SufficientStats s;
-  s.g = Eigen::MatrixXd::Zero(two_r, n_vox);
+  s.g = FilledMatrix(two_r, n_vox, 0.0);
   s.yy = Eigen::VectorXd::Zero(n_vox);
   s.ydy = Eigen::VectorXd::Zero(n_vox);
   s.first = Eigen::VectorXd::Zero(n_vox);

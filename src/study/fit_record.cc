@@ -4,6 +4,7 @@
 
 #include "boldsum/error.h"
 #include "boldsum/io.h"
+#include "common/huge_pages.h"
 
 namespace boldsum {
 namespace {
@@ -26,6 +27,11 @@ class Writer {
     PutArray(m.data(), static_cast<size_t>(m.size()));
   }
   std::string& bytes() { return bytes_; }
+  // One allocation of the final size, on huge pages where the kernel grants them.
+  void Reserve(size_t size) {
+    bytes_.reserve(size);
+    AdviseHugePages(bytes_.data(), size);
+  }
 
  private:
   std::string bytes_;
@@ -68,12 +74,27 @@ class Reader {
 }  // namespace
 
 std::string SerializeFitRecord(const FitRecord& record) {
+  return SerializeFitRecord(record.voxels, record.runs);
+}
+
+std::string SerializeFitRecord(const std::vector<int64_t>& voxels,
+                               const std::vector<RunFit>& runs) {
+  const auto matrix_bytes = [](const auto& m) {
+    return 16 + sizeof(double) * static_cast<size_t>(m.size());
+  };
+  size_t size = sizeof kMagic - 1 + 8 + 8 * voxels.size() + 8;
+  for (const RunFit& run : runs) {
+    size += 5 * 4 + 8 + 4 * run.kept_columns.size() + matrix_bytes(run.gram.xtx) +
+            matrix_bytes(run.gram.lag) + matrix_bytes(run.gram.ends) + matrix_bytes(run.beta) +
+            matrix_bytes(run.sigma2) + matrix_bytes(run.rho) + 8 + run.valid.size();
+  }
   Writer out;
+  out.Reserve(size);
   out.PutArray(kMagic, sizeof kMagic - 1);
-  out.Put<int64_t>(static_cast<int64_t>(record.voxels.size()));
-  out.PutArray(record.voxels.data(), record.voxels.size());
-  out.Put<int64_t>(static_cast<int64_t>(record.runs.size()));
-  for (const RunFit& run : record.runs) {
+  out.Put<int64_t>(static_cast<int64_t>(voxels.size()));
+  out.PutArray(voxels.data(), voxels.size());
+  out.Put<int64_t>(static_cast<int64_t>(runs.size()));
+  for (const RunFit& run : runs) {
     for (int value : {run.n_volumes, run.rank, run.dof, run.n_nonfinite, run.n_constant}) {
       out.Put<int32_t>(value);
     }

@@ -19,6 +19,8 @@ struct FitRecord {
 // Serialises doubles bit for bit (little-endian, as on every platform we build for),
 // so a contrast evaluated from a loaded record equals one from a fresh fit, bitwise.
 std::string SerializeFitRecord(const FitRecord& record);
+// The same bytes from a fit's voxel list and runs, without copying them into a FitRecord.
+std::string SerializeFitRecord(const std::vector<int64_t>& voxels, const std::vector<RunFit>& runs);
 
 // Throws Error("<path>: ...") when the file is missing, truncated or of another format.
 FitRecord LoadFitRecord(const std::string& path);
