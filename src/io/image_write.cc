@@ -1,10 +1,12 @@
+#include <libdeflate.h>
 #include <nifti2_io.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include <algorithm>
 #include <cerrno>
-#include <cstring>
 #include <cstdio>
+#include <cstring>
 #include <memory>
 #include <mutex>
 
@@ -27,11 +29,10 @@ struct NimDeleter {
 };
 
 // A NIfTI-1 float32 image description on `geometry`'s grid, named `file`.
-std::unique_ptr<nifti_image, NimDeleter> MakeImage(const std::string& path,
-                                                   const std::string& file,
+std::unique_ptr<nifti_image, NimDeleter> MakeImage(const std::string& path, const std::string& file,
                                                    const ImageGeometry& g, int n_volumes) {
-  const int64_t dims[8] = {n_volumes > 1 ? 4 : 3, g.dims[0], g.dims[1], g.dims[2],
-                           n_volumes, 1, 1, 1};
+  const int64_t dims[8] = {
+      n_volumes > 1 ? 4 : 3, g.dims[0], g.dims[1], g.dims[2], n_volumes, 1, 1, 1};
   std::unique_ptr<nifti_image, NimDeleter> nim(nifti_make_new_nim(dims, DT_FLOAT32, 0));
   if (!nim) throw Error(path + ": cannot set up the NIfTI header");
   nim->dx = nim->pixdim[1] = g.voxel_mm[0];
@@ -65,9 +66,71 @@ std::unique_ptr<nifti_image, NimDeleter> MakeImage(const std::string& path,
   return nim;
 }
 
-void WriteToTemporary(const std::string& path, const std::string& file, bool gzip,
-                      const ImageGeometry& geometry, const std::vector<float>& values,
-                      int n_volumes) {
+// Images up to this many bytes (header and values) are compressed in one piece by
+// libdeflate (a single gzip member, about twice as fast as zlib at the same level);
+// larger ones (4D stacks) stream through nifticlib and zlib, so that memory stays flat.
+constexpr size_t kWholeBufferBytes = size_t{64} << 20;
+// gzip level 1, as before: on 91 x 109 x 91 float32 maps (75% NaN) libdeflate's level 1
+// takes 9 ms and gives the same size as zlib's level 1 (23 ms) and level 6 (30 ms).
+constexpr int kGzipLevel = 1;
+
+// The 352 bytes nifticlib would write before the values: the NIfTI-1 header and an
+// empty extension flag.
+std::string HeaderBytes(const std::string& path, const std::string& file,
+                        const ImageGeometry& geometry, int n_volumes) {
+  nifti_1_header header;
+  {
+    std::lock_guard<std::mutex> lock(NifticlibMutex());
+    auto nim = MakeImage(path, file, geometry, n_volumes);
+    if (nifti_convert_nim2n1hdr(nim.get(), &header) != 0) {
+      throw Error(path + ": cannot set up the NIfTI header");
+    }
+  }
+  header.vox_offset = 352;
+  std::string bytes(reinterpret_cast<const char*>(&header), sizeof header);
+  bytes.append(4, '\0');
+  return bytes;
+}
+
+void WriteAll(int fd, const void* data, size_t size, const std::string& path) {
+  const char* bytes = static_cast<const char*>(data);
+  while (size > 0) {
+    const ssize_t n = ::write(fd, bytes, size);
+    if (n < 0) {
+      if (errno == EINTR) continue;
+      throw Error(path + ": write error (" + std::strerror(errno) + ")");
+    }
+    bytes += n;
+    size -= static_cast<size_t>(n);
+  }
+}
+
+// Header and values in one buffer, gzip-compressed by libdeflate when `gzip`.
+void WriteWhole(const std::string& path, int fd, bool gzip, const ImageGeometry& geometry,
+                const std::vector<float>& values, int n_volumes, const std::string& file) {
+  std::string bytes = HeaderBytes(path, file, geometry, n_volumes);
+  const size_t header_size = bytes.size();
+  bytes.resize(header_size + values.size() * sizeof(float));
+  std::memcpy(&bytes[header_size], values.data(), values.size() * sizeof(float));
+  if (!gzip) {
+    WriteAll(fd, bytes.data(), bytes.size(), path);
+    return;
+  }
+  std::unique_ptr<libdeflate_compressor, void (*)(libdeflate_compressor*)> compressor(
+      libdeflate_alloc_compressor(kGzipLevel), libdeflate_free_compressor);
+  if (!compressor) throw Error(path + ": out of memory for the gzip compressor");
+  // Not value-initialised: only the compressed bytes are touched.
+  const size_t bound = libdeflate_gzip_compress_bound(compressor.get(), bytes.size());
+  const std::unique_ptr<unsigned char[]> out(new unsigned char[bound]);
+  const size_t size =
+      libdeflate_gzip_compress(compressor.get(), bytes.data(), bytes.size(), out.get(), bound);
+  if (size == 0) throw Error(path + ": gzip compression failed");
+  WriteAll(fd, out.get(), size, path);
+}
+
+void WriteThroughNifticlib(const std::string& path, const std::string& file, bool gzip,
+                           const ImageGeometry& geometry, const std::vector<float>& values,
+                           int n_volumes) {
   // Header (and the empty extension block) first, through nifticlib; the file is left
   // open so that the values can be written, and each write checked, here.
   znzFile out;
@@ -136,12 +199,17 @@ void WriteImage(const std::string& path, const ImageGeometry& geometry,
   const int64_t expected = geometry.n_voxels() * n_volumes;
   if (static_cast<int64_t>(values.size()) != expected) {
     throw Error(path + ": " + std::to_string(values.size()) + " values given for " +
-                std::to_string(n_volumes) + " volume(s) of " +
-                std::to_string(geometry.n_voxels()) + " voxels");
+                std::to_string(n_volumes) + " volume(s) of " + std::to_string(geometry.n_voxels()) +
+                " voxels");
   }
   TempFile temp(path, gzip ? ".nii.gz" : ".nii");
-  temp.CloseDescriptor();  // nifticlib opens the file by name
-  WriteToTemporary(path, temp.name(), gzip, geometry, values, n_volumes);
+  if (352 + values.size() * sizeof(float) <= kWholeBufferBytes) {
+    WriteWhole(path, temp.fd(), gzip, geometry, values, n_volumes, temp.name());
+    temp.CloseDescriptor();
+  } else {
+    temp.CloseDescriptor();  // nifticlib opens the file by name
+    WriteThroughNifticlib(path, temp.name(), gzip, geometry, values, n_volumes);
+  }
   Verify(path, temp.name(), gzip, geometry, n_volumes);
   temp.Commit();
 }
