@@ -145,6 +145,7 @@ SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads,
                       const VolumeCallback& on_volumes) {
   SubjectFit subject;
   subject.plan = std::move(plan);
+  subject.threads = threads;
   const std::vector<RunPlan>& runs = subject.plan.runs;
   FitOptions options;
   options.noise = spec.model.noise;
@@ -183,6 +184,7 @@ SubjectFit RefitContrasts(const StudySpec& spec, SubjectPlan plan, FitRecord rec
                           const KeepContrastFiles& keep_files) {
   SubjectFit subject;
   subject.plan = std::move(plan);
+  subject.threads = threads;
   const std::vector<RunPlan>& runs = subject.plan.runs;
   const std::string where = "subject " + subject.plan.spec->id + ": saved fit";
   if (record.runs.size() != runs.size()) throw Error(where + " has a different number of runs");

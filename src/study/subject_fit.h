@@ -40,6 +40,7 @@ struct SubjectFit {
   std::vector<unsigned char> valid;  // per voxel: valid in every run
   Diagnostics warnings;              // runs left out of contrasts (design
                                      // warnings stay with plan.runs)
+  int threads = 1;                   // threads given for this subject (fit, outputs)
 };
 
 // Called with the volumes read so far (cumulative over the subject's runs); throwing

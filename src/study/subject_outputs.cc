@@ -1,9 +1,14 @@
 #include "study/subject_outputs.h"
 
+#include <atomic>
 #include <cmath>
+#include <exception>
 #include <filesystem>
+#include <functional>
 #include <limits>
+#include <mutex>
 #include <sstream>
+#include <thread>
 
 namespace boldsum {
 namespace {
@@ -54,15 +59,51 @@ std::string WeightsByRunJson(const ContrastOutcome& outcome, const SubjectPlan& 
   return text + "]";
 }
 
-// Takes `relative` over from the earlier folder when it is there, else writes it.
-template <typename Write>
+// Files to write, each by one task that writes a single file under a temporary name and
+// renames it, so that tasks may run in any order and at the same time. Folders and
+// paths are set up (and earlier files adopted) before the tasks run.
+class WriteTasks {
+ public:
+  void Add(std::function<void()> task) { tasks_.push_back(std::move(task)); }
+
+  // Runs every task on up to `threads` threads; after all have stopped, rethrows the
+  // first error (tasks not yet started are skipped once one has failed).
+  void Run(int threads) {
+    std::atomic<size_t> next{0};
+    std::exception_ptr failure;
+    std::mutex failure_mutex;
+    const auto work = [&] {
+      for (size_t k = next++; k < tasks_.size(); k = next++) {
+        try {
+          tasks_[k]();
+        } catch (...) {
+          std::lock_guard<std::mutex> lock(failure_mutex);
+          if (!failure) failure = std::current_exception();
+          next = tasks_.size();
+        }
+      }
+    };
+    std::vector<std::thread> pool;
+    const size_t extra = std::min(static_cast<size_t>(std::max(threads, 1)), tasks_.size());
+    for (size_t t = 1; t < extra; ++t) pool.emplace_back(work);
+    work();
+    for (std::thread& t : pool) t.join();
+    if (failure) std::rethrow_exception(failure);
+  }
+
+ private:
+  std::vector<std::function<void()>> tasks_;
+};
+
+// Takes `relative` over from the earlier folder when it is there, else adds the task
+// that writes it.
 void AdoptOrWrite(const std::string& earlier, const std::string& relative, OutputStage* stage,
-                  const Write& write) {
+                  WriteTasks* tasks, std::function<void(const std::string&)> write) {
   std::error_code ec;
   if (!earlier.empty() && std::filesystem::is_regular_file(earlier + "/" + relative, ec)) {
     stage->Adopt(relative, earlier + "/" + relative);
   } else {
-    write(stage->PathFor(relative));
+    tasks->Add([write = std::move(write), path = stage->PathFor(relative)] { write(path); });
   }
 }
 
@@ -239,19 +280,22 @@ void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject,
                          const std::string& earlier) {
   const SubjectPlan& plan = subject.plan;
   const bool images = plan.kind == DataKind::kImage;
+  WriteTasks tasks;
   for (size_t r = 0; r < plan.runs.size(); ++r) {
     const RunPlan& run = plan.runs[r];
     const std::string folder = "run-" + std::to_string(run.index);
     stage->FolderFor(folder);
-    AdoptOrWrite(earlier, folder + "/design.tsv", stage, [&](const std::string& path) {
+    AdoptOrWrite(earlier, folder + "/design.tsv", stage, &tasks, [&run](const std::string& path) {
       WriteFileAtomically(path, DesignToTsv(run.design));
     });
-    AdoptOrWrite(earlier, folder + "/design.svg", stage, [&](const std::string& path) {
-      WriteFileAtomically(path, RunDesignSvg(run, plan.spec->id));
-    });
+    AdoptOrWrite(earlier, folder + "/design.svg", stage, &tasks,
+                 [&run, &plan](const std::string& path) {
+                   WriteFileAtomically(path, RunDesignSvg(run, plan.spec->id));
+                 });
     if (images) {
-      AdoptOrWrite(earlier, folder + "/ar1.nii.gz", stage,
-                   [&](const std::string& path) { WriteMap(subject, subject.runs[r].rho, path); });
+      AdoptOrWrite(
+          earlier, folder + "/ar1.nii.gz", stage, &tasks,
+          [&subject, r](const std::string& path) { WriteMap(subject, subject.runs[r].rho, path); });
       continue;
     }
     RegionTables tables;
@@ -278,36 +322,45 @@ void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject,
       }
       continue;
     }
+    // One task per map, from per-voxel values that live in `subject`.
+    const auto map = [&](const Eigen::VectorXd& values, const std::string& file) {
+      tasks.Add(
+          [&subject, &values, path = stage->PathFor(file)] { WriteMap(subject, values, path); });
+    };
+    const auto first_row = [&](const Eigen::MatrixXd& values, const std::string& file) {
+      tasks.Add([&subject, &values, path = stage->PathFor(file)] {
+        WriteMap(subject, values.row(0).transpose(), path);
+      });
+    };
     if (!outcome.spec->is_f) {
-      WriteMap(subject, outcome.combined.effect.row(0).transpose(),
-               stage->PathFor(name + ".estimate.nii.gz"));
-      WriteMap(subject, outcome.combined.covariance.row(0).transpose(),
-               stage->PathFor(name + ".variance.nii.gz"));
-      WriteMap(subject, outcome.test.stat, stage->PathFor(name + ".t.nii.gz"));
+      first_row(outcome.combined.effect, name + ".estimate.nii.gz");
+      first_row(outcome.combined.covariance, name + ".variance.nii.gz");
+      map(outcome.test.stat, name + ".t.nii.gz");
     } else {
-      WriteMap(subject, outcome.test.stat, stage->PathFor(name + ".f.nii.gz"));
+      map(outcome.test.stat, name + ".f.nii.gz");
     }
-    WriteMap(subject, outcome.test.z, stage->PathFor(name + ".z.nii.gz"));
+    map(outcome.test.z, name + ".z.nii.gz");
   }
   if (images) {
-    ImageGeometry geometry = subject.geometry;
-    geometry.n_volumes = 1;
-    std::vector<float> mask(static_cast<size_t>(geometry.n_voxels()), 0.0f);
-    for (size_t v = 0; v < subject.voxels.size(); ++v) {
-      if (subject.valid[v]) mask[static_cast<size_t>(subject.voxels[v])] = 1.0f;
-    }
-    AdoptOrWrite(earlier, "mask.nii.gz", stage,
-                 [&](const std::string& path) { WriteImage(path, geometry, mask); });
+    AdoptOrWrite(earlier, "mask.nii.gz", stage, &tasks, [&subject](const std::string& path) {
+      ImageGeometry geometry = subject.geometry;
+      geometry.n_volumes = 1;
+      std::vector<float> mask(static_cast<size_t>(geometry.n_voxels()), 0.0f);
+      for (size_t v = 0; v < subject.voxels.size(); ++v) {
+        if (subject.valid[v]) mask[static_cast<size_t>(subject.voxels[v])] = 1.0f;
+      }
+      WriteImage(path, geometry, mask);
+    });
   } else {
     WriteRegionTables(tables, /*with_ar1=*/false, "", stage);
   }
-  AdoptOrWrite(earlier, "fit_params.bin", stage, [&](const std::string& path) {
-    FitRecord record;
-    record.voxels = subject.voxels;
-    record.runs = subject.runs;
-    WriteFileAtomically(path, SerializeFitRecord(record));
+  AdoptOrWrite(earlier, "fit_params.bin", stage, &tasks, [&subject](const std::string& path) {
+    WriteFileAtomically(path, SerializeFitRecord(subject.voxels, subject.runs));
   });
-  WriteFileAtomically(stage->PathFor("summary.json"), SummaryJson(spec, subject, fingerprint));
+  tasks.Add([&spec, &subject, &fingerprint, path = stage->PathFor("summary.json")] {
+    WriteFileAtomically(path, SummaryJson(spec, subject, fingerprint));
+  });
+  tasks.Run(subject.threads);
 }
 
 }  // namespace boldsum

@@ -17,7 +17,8 @@ namespace boldsum {
 // `earlier` (optional) is the subject's folder of an earlier run with the same
 // fingerprint (only contrasts changed): the files that do not depend on the contrasts
 // (per run design and AR(1) map, mask, fit_params.bin) and the files of contrasts with
-// files_kept are taken over from it instead of being encoded again.
+// files_kept are taken over from it instead of being encoded again. Files are written by
+// up to subject.threads threads at once.
 void WriteSubjectOutputs(const StudySpec& spec, const SubjectFit& subject,
                          const SubjectFingerprint& fingerprint, OutputStage* stage,
                          const std::string& earlier = "");
