@@ -23,6 +23,9 @@ class BlockSource {
   // instead of Next(), so that no precision is lost on the way to the fit.
   virtual bool ProvidesDoubles() const { return false; }
   virtual bool NextDouble(Eigen::MatrixXd* /*block*/) { return false; }
+  // Threads the source keeps busy while it is being read (a background decoder): the
+  // fit leaves that many of its threads to it until the data end.
+  virtual int BackgroundThreads() const { return 0; }
 };
 
 // An in-memory N x V matrix as a BlockSource (ROI tables, tests).

@@ -1,5 +1,6 @@
 #include "fit/sufficient_stats.h"
 
+#include <algorithm>
 #include <string>
 #include <vector>
 
@@ -137,6 +138,7 @@ SufficientStats AccumulateStats(const DesignBasis& basis, BlockSource* source, i
                 std::to_string(basis.n) + " rows");
   }
   if (n_vox < 1) throw Error("data has no voxels");
+  threads = std::max(1, threads - source->BackgroundThreads());
   const Eigen::Index two_r = basis.z.cols();
   SufficientStats s;
   s.g = FilledMatrix(two_r, n_vox, 0.0);

@@ -28,8 +28,9 @@ struct SufficientStats {
 // Either way a voxel's arithmetic does not depend on its neighbours or on `threads`.
 enum class StatsKernel { kAuto, kPortable };
 
-// Reads every block of `source` once. Throws Error when the source's shape disagrees
-// with the design (volumes) or a block's width differs from n_voxels().
+// Reads every block of `source` once, on threads - source->BackgroundThreads() threads
+// (at least one). Throws Error when the source's shape disagrees with the design
+// (volumes) or a block's width differs from n_voxels().
 SufficientStats AccumulateStats(const DesignBasis& basis, BlockSource* source, int threads,
                                 StatsKernel kernel = StatsKernel::kAuto);
 

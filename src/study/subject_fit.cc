@@ -124,6 +124,7 @@ class StreamSource : public BlockSource {
         on_volumes_(on_volumes) {}
   int n_volumes() const override { return volumes_; }
   int n_voxels() const override { return voxels_; }
+  int BackgroundThreads() const override { return 1; }  // VolumeStream's decoder
   bool Next(Eigen::MatrixXf* block) override {
     if (!stream_->Next(block)) return false;
     read_ += block->rows();
