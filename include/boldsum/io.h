@@ -46,8 +46,9 @@ ImageGeometry ReadImageGeometry(const std::string& path);
 std::vector<float> ReadVolume(const std::string& path, ImageGeometry* geometry);
 
 // Streams a 4D image in blocks of whole volumes, keeping only the voxels listed in
-// `voxels` (linear indices, increasing). Decompression runs on a background thread
-// so that it overlaps with whatever the caller does with the previous block.
+// `voxels` (linear indices, increasing). Reading and decompression run on a background
+// thread, ahead of the caller by a few tiles of volumes; Next() picks the voxels out of
+// them on the caller's thread, so that the background thread does nothing else.
 class VolumeStream {
  public:
   VolumeStream(const std::string& path, std::vector<int64_t> voxels, int block_volumes);
