@@ -14,7 +14,7 @@ is not run by ctest (the full size is too big for CI). Run it by hand on a quiet
 --scale small: a 45 x 54 x 45 grid (~29k voxels), N = 100 and 400, for trying it out.
 
 Figures (targets beside them; PASS/MISS is information only):
-(a) voxels/s of boldsum's compute (FitRun + EstimateContrast + TestContrast, data in
+(a) voxels/s of boldsum's compute (FitRun + EstimateContrasts + TestContrast, data in
     memory, benchmarks/fit_throughput) against the numpy GLS in benchmarks/numpy_gls.py
     (run on every k-th voxel, ~20k, and scaled), with their agreement. numpy uses
     Debian's OpenBLAS when libopenblas0-pthread is installed (or the folder given by

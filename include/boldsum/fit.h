@@ -37,6 +37,7 @@ class MatrixSource : public BlockSource {
   bool Next(Eigen::MatrixXf* block) override;
   bool ProvidesDoubles() const override { return true; }
   bool NextDouble(Eigen::MatrixXd* block) override;
+
  private:
   const Eigen::MatrixXd& data_;
   int block_volumes_;
@@ -59,15 +60,15 @@ struct DesignGram {
 struct RunFit {
   int n_volumes = 0;
   int rank = 0;
-  int dof = 0;                    // n_volumes - rank
-  std::vector<int> kept_columns;  // a maximal independent set of columns (pivoted QR)
-  DesignGram gram;                // over all p columns
-  Eigen::MatrixXd beta;           // p x V; columns not kept are 0
-  Eigen::VectorXd sigma2;         // V; whitened residual variance (innovation variance)
-  Eigen::VectorXd rho;            // V; 0 when noise is kNone
+  int dof = 0;                       // n_volumes - rank
+  std::vector<int> kept_columns;     // a maximal independent set of columns (pivoted QR)
+  DesignGram gram;                   // over all p columns
+  Eigen::MatrixXd beta;              // p x V; columns not kept are 0
+  Eigen::VectorXd sigma2;            // V; whitened residual variance (innovation variance)
+  Eigen::VectorXd rho;               // V; 0 when noise is kNone
   std::vector<unsigned char> valid;  // V; 0 for non-finite data or zero residual variance
-  int n_nonfinite = 0;            // voxels excluded for NaN/Inf values
-  int n_constant = 0;             // voxels excluded for zero variance
+  int n_nonfinite = 0;               // voxels excluded for NaN/Inf values
+  int n_constant = 0;                // voxels excluded for zero variance
 };
 
 // Fits every voxel of `data` against design `x` (N x p). Throws Error when N does not
@@ -77,15 +78,20 @@ RunFit FitRun(const Eigen::MatrixXd& x, BlockSource* data, const FitOptions& opt
 // C beta and its covariance for a q x p contrast matrix C, per voxel.
 struct ContrastEstimate {
   int q = 1;
-  bool estimable = true;        // rows of C in the row space of X; if false, no values
-  double dof = 0;               // residual degrees of freedom
-  Eigen::MatrixXd effect;       // q x V
-  Eigen::MatrixXd covariance;   // (q*q) x V: sigma^2 C (X'V^-1 X)^-1 C', column-major
+  bool estimable = true;             // rows of C in the row space of X; if false, no values
+  double dof = 0;                    // residual degrees of freedom
+  Eigen::MatrixXd effect;            // q x V
+  Eigen::MatrixXd covariance;        // (q*q) x V: sigma^2 C (X'V^-1 X)^-1 C', column-major
   std::vector<unsigned char> valid;  // V
 };
 
 ContrastEstimate EstimateContrast(const RunFit& fit, const Eigen::MatrixXd& c,
                                   const FitOptions& options);
+// The same for several contrasts at once (one factorisation per voxel for all of them);
+// element k equals EstimateContrast(fit, contrasts[k], options) bit for bit.
+std::vector<ContrastEstimate> EstimateContrasts(const RunFit& fit,
+                                                const std::vector<Eigen::MatrixXd>& contrasts,
+                                                const FitOptions& options);
 
 // t (q = 1) or F (q > 1) and the matching z, per voxel; NaN where not valid.
 struct ContrastTest {

@@ -4,6 +4,7 @@
 #include <cmath>
 #include <limits>
 #include <string>
+#include <vector>
 
 #include "boldsum/error.h"
 #include "boldsum/fit.h"
@@ -71,55 +72,80 @@ bool AreRowsEstimable(const DesignGram& gram, const std::vector<int>& kept,
 
 }  // namespace
 
-ContrastEstimate EstimateContrast(const RunFit& fit, const Eigen::MatrixXd& c,
-                                  const FitOptions& options) {
+std::vector<ContrastEstimate> EstimateContrasts(const RunFit& fit,
+                                                const std::vector<Eigen::MatrixXd>& contrasts,
+                                                const FitOptions& options) {
   const Eigen::Index p = fit.beta.rows();
   const Eigen::Index n_vox = fit.beta.cols();
   if (options.threads < 1) {
     throw Error("FitOptions::threads = " + std::to_string(options.threads) +
                 "; it must be at least 1");
   }
-  if (c.rows() < 1 || c.cols() != p) {
-    throw Error("contrast matrix is " + std::to_string(c.rows()) + " x " +
-                std::to_string(c.cols()) + "; it needs at least one row and " + std::to_string(p) +
-                " columns (one per design column)");
+  for (const Eigen::MatrixXd& c : contrasts) {
+    if (c.rows() < 1 || c.cols() != p) {
+      throw Error("contrast matrix is " + std::to_string(c.rows()) + " x " +
+                  std::to_string(c.cols()) + "; it needs at least one row and " +
+                  std::to_string(p) + " columns (one per design column)");
+    }
+    if (!c.allFinite()) throw Error("contrast matrix has a non-finite weight");
   }
-  if (!c.allFinite()) throw Error("contrast matrix has a non-finite weight");
-  const Eigen::Index q = c.rows();
-  ContrastEstimate out;
-  out.q = static_cast<int>(q);
-  out.dof = fit.dof;
-  out.estimable = AreRowsEstimable(fit.gram, fit.kept_columns, c);
-  out.effect = Eigen::MatrixXd::Constant(q, n_vox, kNaN);
-  out.covariance = Eigen::MatrixXd::Constant(q * q, n_vox, kNaN);
-  out.valid.assign(static_cast<size_t>(n_vox), 0);
-  if (!out.estimable) return out;
-
+  const Eigen::Index r = static_cast<Eigen::Index>(fit.kept_columns.size());
+  std::vector<ContrastEstimate> out(contrasts.size());
+  // Per estimable contrast: C on the kept columns (q x r) and V'C_k' (r x q).
+  std::vector<size_t> estimable;
+  std::vector<Eigen::MatrixXd> ck(contrasts.size()), ct(contrasts.size());
+  for (size_t k = 0; k < contrasts.size(); ++k) {
+    const Eigen::MatrixXd& c = contrasts[k];
+    const Eigen::Index q = c.rows();
+    ContrastEstimate& e = out[k];
+    e.q = static_cast<int>(q);
+    e.dof = fit.dof;
+    e.estimable = AreRowsEstimable(fit.gram, fit.kept_columns, c);
+    e.effect = Eigen::MatrixXd::Constant(q, n_vox, kNaN);
+    e.covariance = Eigen::MatrixXd::Constant(q * q, n_vox, kNaN);
+    e.valid.assign(static_cast<size_t>(n_vox), 0);
+    if (!e.estimable) continue;
+    estimable.push_back(k);
+    ck[k].resize(q, r);
+    for (Eigen::Index i = 0; i < r; ++i) ck[k].col(i) = c.col(fit.kept_columns[i]);
+  }
+  if (estimable.empty()) return out;
   const fit::DiagonalGram diagonal =
       fit::DiagonaliseGram(fit::SelectKept(fit.gram, fit.kept_columns));
-  const Eigen::Index r = static_cast<Eigen::Index>(fit.kept_columns.size());
-  Eigen::MatrixXd ck(q, r);
-  for (Eigen::Index i = 0; i < r; ++i) ck.col(i) = c.col(fit.kept_columns[i]);
-  const Eigen::MatrixXd ct = diagonal.v.transpose() * ck.transpose();  // r x q
+  for (size_t k : estimable) ct[k] = diagonal.v.transpose() * ck[k].transpose();
 
+  // One factorisation of M(rho) per voxel serves every contrast; each contrast's
+  // arithmetic is the same as when it is estimated alone.
   fit::ForEachChunk(n_vox, options.threads, [&](Eigen::Index v0, Eigen::Index v1) {
     fit::WhitenedSolver solver(r);
-    Eigen::MatrixXd cov(q, q);
+    std::vector<Eigen::MatrixXd> cov(contrasts.size());
+    for (size_t k : estimable) cov[k].resize(contrasts[k].rows(), contrasts[k].rows());
     Eigen::VectorXd beta_k(r);
     for (Eigen::Index v = v0; v < v1; ++v) {
       if (!fit.valid[static_cast<size_t>(v)]) continue;
       if (!solver.Factor(diagonal, fit.rho(v))) continue;
-      solver.InverseForm(ct, &cov);
-      cov *= fit.sigma2(v);
       for (Eigen::Index i = 0; i < r; ++i) beta_k(i) = fit.beta(fit.kept_columns[i], v);
-      out.effect.col(v).noalias() = ck * beta_k;
-      out.covariance.col(v) = Eigen::Map<const Eigen::VectorXd>(cov.data(), q * q);
-      bool ok = true;
-      for (Eigen::Index i = 0; i < q; ++i) ok = ok && cov(i, i) > 0 && std::isfinite(cov(i, i));
-      out.valid[static_cast<size_t>(v)] = ok;
+      for (size_t k : estimable) {
+        ContrastEstimate& e = out[k];
+        const Eigen::Index q = e.q;
+        solver.InverseForm(ct[k], &cov[k]);
+        cov[k] *= fit.sigma2(v);
+        e.effect.col(v).noalias() = ck[k] * beta_k;
+        e.covariance.col(v) = Eigen::Map<const Eigen::VectorXd>(cov[k].data(), q * q);
+        bool ok = true;
+        for (Eigen::Index i = 0; i < q; ++i) {
+          ok = ok && cov[k](i, i) > 0 && std::isfinite(cov[k](i, i));
+        }
+        e.valid[static_cast<size_t>(v)] = ok;
+      }
     }
   });
   return out;
+}
+
+ContrastEstimate EstimateContrast(const RunFit& fit, const Eigen::MatrixXd& c,
+                                  const FitOptions& options) {
+  return EstimateContrasts(fit, {c}, options).front();
 }
 
 }  // namespace boldsum

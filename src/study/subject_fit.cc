@@ -89,14 +89,22 @@ void EvaluateContrasts(const StudySpec& spec, SubjectFit* subject, int threads,
   for (const RunFit& fit : subject->runs) {
     for (size_t v = 0; v < n_voxels; ++v) subject->valid[v] &= fit.valid[v];
   }
-  for (const ContrastSpec& contrast : spec.contrasts) {
-    ContrastOutcome outcome;
-    outcome.spec = &contrast;
-    for (size_t r = 0; r < runs.size(); ++r) {
-      outcome.weights.push_back(ContrastWeights(contrast, runs[r].design));
-      outcome.per_run.push_back(
-          EstimateContrast(subject->runs[r], outcome.weights.back(), options));
+  // Every contrast of a run at once (one factorisation per voxel serves them all).
+  std::vector<ContrastOutcome> outcomes(spec.contrasts.size());
+  for (size_t k = 0; k < outcomes.size(); ++k) outcomes[k].spec = &spec.contrasts[k];
+  for (size_t r = 0; r < runs.size(); ++r) {
+    std::vector<Eigen::MatrixXd> weights;
+    for (ContrastOutcome& outcome : outcomes) {
+      outcome.weights.push_back(ContrastWeights(*outcome.spec, runs[r].design));
+      weights.push_back(outcome.weights.back());
     }
+    std::vector<ContrastEstimate> estimates = EstimateContrasts(subject->runs[r], weights, options);
+    for (size_t k = 0; k < outcomes.size(); ++k) {
+      outcomes[k].per_run.push_back(std::move(estimates[k]));
+    }
+  }
+  for (ContrastOutcome& outcome : outcomes) {
+    const ContrastSpec& contrast = *outcome.spec;
     outcome.files_kept = keep_files && keep_files(outcome, subject->plan);
     CombineContrast(*subject, &outcome, threads);
     for (int index : outcome.runs_left_out) {

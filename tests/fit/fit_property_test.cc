@@ -156,7 +156,8 @@ RC_GTEST_PROP(FitProperty, PermutingVoxelsPermutesOutputs, ()) {
     RC_ASSERT(RelDiff(o2.fit.beta.col(a), o1.fit.beta.col(b)) <= 1e-12);
     RC_ASSERT(std::abs(o2.fit.rho(a) - o1.fit.rho(b)) <= 1e-12);
     RC_ASSERT(std::abs(o2.fit.sigma2(a) / o1.fit.sigma2(b) - 1) <= 1e-12);
-    RC_ASSERT(std::abs(o2.test.stat(a) - o1.test.stat(b)) <= 1e-12 * (1 + std::abs(o1.test.stat(b))));
+    RC_ASSERT(std::abs(o2.test.stat(a) - o1.test.stat(b)) <=
+              1e-12 * (1 + std::abs(o1.test.stat(b))));
   }
 }
 
@@ -175,6 +176,32 @@ RC_GTEST_PROP(FitProperty, ThreadCountNeverChangesABit, ()) {
     RC_ASSERT(SameBits(o.est.covariance, o1.est.covariance));
     RC_ASSERT(SameBits(o.test.stat, o1.test.stat));
     RC_ASSERT(SameBits(o.test.z, o1.test.z));
+  }
+}
+
+// Estimating several contrasts at once gives each the bits it gets alone.
+RC_GTEST_PROP(FitProperty, ContrastsTogetherEqualContrastsAlone, ()) {
+  const RealisticCase d = GenRealisticCase(1, 40);
+  const Eigen::Index p = d.x.cols();
+  Eigen::MatrixXd t = Eigen::MatrixXd::Zero(1, p), f = Eigen::MatrixXd::Zero(2, p);
+  t(0, 0) = 1.0;
+  t(0, 1) = -1.0;
+  f(0, 0) = f(1, 1) = 1.0;
+  Eigen::MatrixXd drift = Eigen::MatrixXd::Zero(1, p);
+  drift(0, p - 2) = 1.0;
+  FitOptions options;
+  options.threads = *rc::gen::inRange(1, 4);
+  MatrixSource source(d.y, 64);
+  const RunFit fit = FitRun(d.x, &source, options);
+  const std::vector<ContrastEstimate> together = EstimateContrasts(fit, {t, f, drift}, options);
+  RC_ASSERT(together.size() == 3u);
+  const Eigen::MatrixXd* cs[] = {&t, &f, &drift};
+  for (size_t k = 0; k < 3; ++k) {
+    const ContrastEstimate alone = EstimateContrast(fit, *cs[k], options);
+    RC_ASSERT(SameBits(together[k].effect, alone.effect));
+    RC_ASSERT(SameBits(together[k].covariance, alone.covariance));
+    RC_ASSERT(together[k].valid == alone.valid);
+    RC_ASSERT(together[k].estimable == alone.estimable);
   }
 }
 
