@@ -84,25 +84,41 @@ DiagonalGram DiagonaliseGram(const KeptGram& g) {
   return out;
 }
 
+// The three functions below run once per voxel (and contrast): plain loops over r, as
+// Eigen's expressions of dynamic size cost more than the arithmetic at r ~ 20-30.
 bool WhitenedSolver::Factor(const DiagonalGram& g, double rho) {
   // d_i = 1 + rho^2 - rho lambda_i as a sum of two non-negative terms, so that it keeps
   // its relative accuracy as rho -> +-1 and lambda -> +-2; d_i >= (1 - |rho|)^2 > 0 for
   // |rho| < 1 (the fit clamps rho to [-0.99, 0.99]).
   if (!(std::abs(rho) < 1.0)) return false;
+  const Eigen::Index r = g.lambda.size();
+  const double* lambda = g.lambda.data();
+  double* inv_d = inv_d_.data();
   if (rho >= 0) {
     const double a = (1.0 - rho) * (1.0 - rho);
-    inv_d_ = (a + rho * (2.0 - g.lambda.array())).inverse();
+    for (Eigen::Index i = 0; i < r; ++i) inv_d[i] = 1.0 / (a + rho * (2.0 - lambda[i]));
   } else {
     const double a = (1.0 + rho) * (1.0 + rho);
-    inv_d_ = (a - rho * (2.0 + g.lambda.array())).inverse();
+    for (Eigen::Index i = 0; i < r; ++i) inv_d[i] = 1.0 / (a - rho * (2.0 + lambda[i]));
   }
   rank2_ = rho != 0;
   if (!rank2_) return true;
-  dg_.noalias() = rho * (inv_d_.asDiagonal() * g.f);
-  // K = I - G' D^-1 G with G = rho F.
-  const double k00 = 1.0 - rho * g.f.col(0).dot(dg_.col(0));
-  const double k10 = -rho * g.f.col(1).dot(dg_.col(0));
-  const double k11 = 1.0 - rho * g.f.col(1).dot(dg_.col(1));
+  // D^-1 G with G = rho F, and K = I - G' D^-1 G.
+  const double* f0 = g.f.data();
+  const double* f1 = f0 + r;
+  double* dg0 = dg_.data();
+  double* dg1 = dg0 + r;
+  double s00 = 0, s10 = 0, s11 = 0;
+  for (Eigen::Index i = 0; i < r; ++i) {
+    dg0[i] = rho * inv_d[i] * f0[i];
+    dg1[i] = rho * inv_d[i] * f1[i];
+    s00 += f0[i] * dg0[i];
+    s10 += f1[i] * dg0[i];
+    s11 += f1[i] * dg1[i];
+  }
+  const double k00 = 1.0 - rho * s00;
+  const double k10 = -rho * s10;
+  const double k11 = 1.0 - rho * s11;
   if (!(k00 > 0)) return false;
   k00_ = std::sqrt(k00);
   k10_ = k10 / k00_;
@@ -114,35 +130,64 @@ bool WhitenedSolver::Factor(const DiagonalGram& g, double rho) {
 
 double WhitenedSolver::SolveInPlace(Eigen::Ref<Eigen::VectorXd> x) const {
   // M^-1 x = D^-1 x + D^-1 G K^-1 G' D^-1 x; x' M^-1 x = x' D^-1 x + |L^-1 G' D^-1 x|^2.
-  double quad = x.dot(inv_d_.cwiseProduct(x));
+  const Eigen::Index r = inv_d_.size();
+  const double* inv_d = inv_d_.data();
+  double* v = x.data();
+  double quad = 0;
   if (!rank2_) {
-    x.array() *= inv_d_.array();
+    for (Eigen::Index i = 0; i < r; ++i) {
+      quad += v[i] * inv_d[i] * v[i];
+      v[i] *= inv_d[i];
+    }
     return quad;
   }
-  const double s0 = dg_.col(0).dot(x);
-  const double s1 = dg_.col(1).dot(x);
+  const double* dg0 = dg_.data();
+  const double* dg1 = dg0 + r;
+  double s0 = 0, s1 = 0;
+  for (Eigen::Index i = 0; i < r; ++i) {
+    quad += v[i] * inv_d[i] * v[i];
+    s0 += dg0[i] * v[i];
+    s1 += dg1[i] * v[i];
+  }
   const double t0 = s0 / k00_;
   const double t1 = (s1 - k10_ * t0) / k11_;
   quad += t0 * t0 + t1 * t1;
   // K^-1 s = L^-T (L^-1 s).
   const double u1 = t1 / k11_;
   const double u0 = (t0 - k10_ * u1) / k00_;
-  x.array() *= inv_d_.array();
-  x.noalias() += u0 * dg_.col(0) + u1 * dg_.col(1);
+  for (Eigen::Index i = 0; i < r; ++i) v[i] = v[i] * inv_d[i] + (u0 * dg0[i] + u1 * dg1[i]);
   return quad;
 }
 
 void WhitenedSolver::InverseForm(const Eigen::MatrixXd& c, Eigen::MatrixXd* out) const {
   // c' M^-1 c = c' D^-1 c + T'T with T = L^-1 G' D^-1 c (2 x q).
-  out->noalias() = c.transpose() * inv_d_.asDiagonal() * c;
-  if (!rank2_) return;
+  const Eigen::Index r = c.rows();
   const Eigen::Index q = c.cols();
-  Eigen::Matrix<double, 2, Eigen::Dynamic> t(2, q);
+  const double* inv_d = inv_d_.data();
+  const double* dg0 = dg_.data();
+  const double* dg1 = dg0 + r;
+  if (t_.size() < 2 * q) t_.resize(2 * q);
   for (Eigen::Index j = 0; j < q; ++j) {
-    t(0, j) = dg_.col(0).dot(c.col(j)) / k00_;
-    t(1, j) = (dg_.col(1).dot(c.col(j)) - k10_ * t(0, j)) / k11_;
+    const double* cj = c.data() + j * r;
+    for (Eigen::Index i = 0; i <= j; ++i) {
+      const double* ci = c.data() + i * r;
+      double sum = 0;
+      for (Eigen::Index k = 0; k < r; ++k) sum += ci[k] * inv_d[k] * cj[k];
+      (*out)(i, j) = (*out)(j, i) = sum;
+    }
+    if (!rank2_) continue;
+    double a = 0, b = 0;
+    for (Eigen::Index k = 0; k < r; ++k) {
+      a += dg0[k] * cj[k];
+      b += dg1[k] * cj[k];
+    }
+    t_(2 * j) = a / k00_;
+    t_(2 * j + 1) = (b - k10_ * t_(2 * j)) / k11_;
+    for (Eigen::Index i = 0; i <= j; ++i) {
+      (*out)(i, j) += t_(2 * i) * t_(2 * j) + t_(2 * i + 1) * t_(2 * j + 1);
+      (*out)(j, i) = (*out)(i, j);
+    }
   }
-  out->noalias() += t.transpose() * t;
 }
 
 DesignBasis AnalyseDesign(const Eigen::MatrixXd& x) {

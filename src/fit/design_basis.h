@@ -52,7 +52,7 @@ class WhitenedSolver {
   bool Factor(const DiagonalGram& g, double rho);
   // x := M^-1 x; returns x' M^-1 x for the x given (before the solve).
   double SolveInPlace(Eigen::Ref<Eigen::VectorXd> x) const;
-  // c' M^-1 c for the columns of c (r x q), written into out (q x q).
+  // c' M^-1 c for the columns of c (r x q), written into out (q x q, preallocated).
   void InverseForm(const Eigen::MatrixXd& c, Eigen::MatrixXd* out) const;
 
  private:
@@ -60,6 +60,7 @@ class WhitenedSolver {
   Eigen::MatrixXd dg_;                  // D^-1 G, r x 2
   double k00_ = 1, k10_ = 0, k11_ = 1;  // lower Cholesky factor of K
   bool rank2_ = false;                  // rho != 0
+  mutable Eigen::VectorXd t_;           // scratch of InverseForm: T column by column
 };
 
 struct DesignBasis {
