@@ -1,6 +1,7 @@
 #include "io/byte_source.h"
 
 #include <fcntl.h>
+#include <libdeflate.h>
 #include <unistd.h>
 
 #include <algorithm>
@@ -29,9 +30,12 @@ ByteSource::ByteSource(const std::string& path, int64_t offset, size_t buffer_by
     Refill();
     compressed_ = zs_.avail_in >= 2 && in_[0] == 0x1f && in_[1] == 0x8b;
     if (compressed_) {
-      // 15 + 16: a 32 KiB window and a gzip wrapper (RFC 1952), CRC-32 checked.
-      if (inflateInit2(&zs_, 15 + 16) != Z_OK) throw Error(path + ": cannot start zlib");
+      // -15: raw deflate with a 32 KiB window; the gzip wrapper is read here.
+      if (inflateInit2(&zs_, -15) != Z_OK) throw Error(path + ": cannot start zlib");
       zs_ready_ = true;
+      zs_.next_in += 2;
+      zs_.avail_in -= 2;
+      if (!ReadMemberHeader()) stream_done_ = true;  // Read() reports the truncation
     }
     Skip(offset);
   } catch (...) {
@@ -65,10 +69,69 @@ bool ByteSource::Refill() {
   return more;
 }
 
+bool ByteSource::TakeByte(unsigned char* byte) {
+  if (zs_.avail_in == 0) Refill();
+  if (zs_.avail_in == 0) return false;
+  *byte = *zs_.next_in++;
+  --zs_.avail_in;
+  return true;
+}
+
+bool ByteSource::ReadMemberHeader() {
+  // CM, FLG, MTIME (4), XFL, OS; then the optional fields FLG announces.
+  unsigned char fixed[8];
+  for (unsigned char& b : fixed) {
+    if (!TakeByte(&b)) return false;
+  }
+  const unsigned char flags = fixed[1];
+  if (fixed[0] != 8) throw Error(path_ + ": corrupt gzip data (unknown compression method)");
+  if (flags & 0xe0) throw Error(path_ + ": corrupt gzip data (unknown header flags set)");
+  unsigned char b;
+  if (flags & 0x04) {  // FEXTRA: XLEN, then XLEN bytes
+    unsigned char len[2];
+    if (!TakeByte(&len[0]) || !TakeByte(&len[1])) return false;
+    for (int n = len[0] | len[1] << 8; n > 0; --n) {
+      if (!TakeByte(&b)) return false;
+    }
+  }
+  for (const unsigned char field : {0x08, 0x10}) {  // FNAME, FCOMMENT: zero-terminated
+    if (!(flags & field)) continue;
+    do {
+      if (!TakeByte(&b)) return false;
+    } while (b != 0);
+  }
+  if (flags & 0x02) {  // FHCRC: two bytes, not checked (as gzip does not)
+    if (!TakeByte(&b) || !TakeByte(&b)) return false;
+  }
+  crc_ = 0;
+  member_bytes_ = 0;
+  return true;
+}
+
+void ByteSource::CheckMemberTrailer() {
+  unsigned char t[8];
+  for (unsigned char& b : t) {
+    if (!TakeByte(&b)) {
+      throw Error(path_ + ": file ends before the end of its gzip stream (truncated)");
+    }
+  }
+  const uint32_t crc =
+      uint32_t{t[0]} | uint32_t{t[1]} << 8 | uint32_t{t[2]} << 16 | uint32_t{t[3]} << 24;
+  const uint32_t size =
+      uint32_t{t[4]} | uint32_t{t[5]} << 8 | uint32_t{t[6]} << 16 | uint32_t{t[7]} << 24;
+  if (crc != crc_) throw Error(path_ + ": corrupt gzip data (incorrect data check)");
+  if (size != member_bytes_) throw Error(path_ + ": corrupt gzip data (incorrect length check)");
+}
+
 bool ByteSource::StartNextMember() {
   if (zs_.avail_in < 2) Refill();
   // Bytes after a member that do not start another one are ignored, as gzip does.
   if (zs_.avail_in < 2 || zs_.next_in[0] != 0x1f || zs_.next_in[1] != 0x8b) return false;
+  zs_.next_in += 2;
+  zs_.avail_in -= 2;
+  if (!ReadMemberHeader()) {
+    throw Error(path_ + ": file ends before the end of its gzip stream (truncated)");
+  }
   inflateReset(&zs_);
   return true;
 }
@@ -103,8 +166,11 @@ size_t ByteSource::Read(void* dst, size_t n) {
     zs_.avail_out = static_cast<uInt>(want);
     const int ret = inflate(&zs_, Z_NO_FLUSH);
     const size_t produced = want - zs_.avail_out;
+    crc_ = libdeflate_crc32(crc_, out + done, produced);
+    member_bytes_ += static_cast<uint32_t>(produced);
     done += produced;
     if (ret == Z_STREAM_END) {
+      CheckMemberTrailer();
       if (!StartNextMember()) stream_done_ = true;
     } else if (ret == Z_DATA_ERROR || ret == Z_NEED_DICT) {
       throw Error(path_ + ": corrupt gzip data (" +

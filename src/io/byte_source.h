@@ -37,6 +37,13 @@ class ByteSource {
 
  private:
   bool Refill();  // false at the end of the file
+  // Reads one byte of compressed input; false at the end of the file.
+  bool TakeByte(unsigned char* byte);
+  // Reads and checks a gzip member header (RFC 1952 section 2.3) after its magic bytes;
+  // throws Error on a bad one, returns false when the file ends inside it.
+  bool ReadMemberHeader();
+  // After the end of a member's deflate data: checks its CRC-32 and length.
+  void CheckMemberTrailer();
   bool StartNextMember();  // after a member's end: true when another member follows
   void Skip(int64_t n);
 
@@ -46,8 +53,12 @@ class ByteSource {
   bool input_done_ = false;   // the file has been read to its end
   bool stream_done_ = false;  // the last gzip member ended
   std::vector<unsigned char> in_;
+  // Raw deflate (zlib); the gzip framing and CRC-32 (libdeflate's, several times
+  // faster than zlib's) are done here.
   z_stream zs_{};
   bool zs_ready_ = false;
+  uint32_t crc_ = 0;           // CRC-32 of the current member's data so far
+  uint32_t member_bytes_ = 0;  // its length modulo 2^32
 };
 
 }  // namespace boldsum

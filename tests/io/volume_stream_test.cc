@@ -2,9 +2,11 @@
 // Expected values are the raw float32 values written byte by byte (NIfTI-1 layout).
 #include <gtest/gtest.h>
 #include <rapidcheck/gtest.h>
+#include <zlib.h>
 
-#include <numeric>
+#include <fstream>
 #include <functional>
+#include <numeric>
 
 #include "boldsum/io.h"
 #include "nifti_files.h"
@@ -83,8 +85,8 @@ TEST(VolumeStream, BlockBoundaries) {
     struct Case {
       int block;
       std::vector<int> rows;
-    } cases[] = {{1, {1, 1, 1, 1, 1, 1, 1}}, {2, {2, 2, 2, 1}}, {3, {3, 3, 1}},
-                 {7, {7}},                    {10, {7}}};
+    } cases[] = {
+        {1, {1, 1, 1, 1, 1, 1, 1}}, {2, {2, 2, 2, 1}}, {3, {3, 3, 1}}, {7, {7}}, {10, {7}}};
     for (const Case& c : cases) {
       SCOPED_TRACE(std::string(name) + " block " + std::to_string(c.block));
       const Streamed s = StreamAll(path, all, c.block);
@@ -133,12 +135,18 @@ TEST(VolumeStream, BadArguments) {
   const std::string path = Write4d(dir, "s.nii", {2, 2, 1, 2});
   EXPECT_EQ(ErrorOf([&] { VolumeStream(path, {0}, 0); }),
             path + ": block_volumes = 0 (must be at least 1)");
-  EXPECT_EQ(ErrorOf([&] { VolumeStream(path, {0, 4}, 1); }),
-            path + ": voxel index 4 at position 1 is out of range or not increasing (the "
-                   "image has 4 voxels)");
-  EXPECT_EQ(ErrorOf([&] { VolumeStream(path, {2, 2}, 1); }),
-            path + ": voxel index 2 at position 1 is out of range or not increasing (the "
-                   "image has 4 voxels)");
+  EXPECT_EQ(ErrorOf([&] {
+              VolumeStream(path, {0, 4}, 1);
+            }),
+            path +
+                ": voxel index 4 at position 1 is out of range or not increasing (the "
+                "image has 4 voxels)");
+  EXPECT_EQ(ErrorOf([&] {
+              VolumeStream(path, {2, 2}, 1);
+            }),
+            path +
+                ": voxel index 2 at position 1 is out of range or not increasing (the "
+                "image has 4 voxels)");
 }
 
 // A file cut inside volume 4 of 6: blocks before it arrive, then the error does.
@@ -189,6 +197,67 @@ TEST(VolumeStream, CorruptGzipIsReported) {
   }
 }
 
+// gzip members with every optional header field of RFC 1952 section 2.3 (FEXTRA, FNAME,
+// FCOMMENT, FHCRC), written by zlib's deflateSetHeader; and damaged trailers: a wrong
+// length (ISIZE) and a file cut inside the trailer.
+std::string GzipWithHeaderFields(const std::string& data) {
+  z_stream zs{};
+  EXPECT_EQ(deflateInit2(&zs, 6, Z_DEFLATED, 15 + 16, 8, Z_DEFAULT_STRATEGY), Z_OK);
+  unsigned char extra[] = {'b', 's', 3, 0, 1, 2, 3};
+  unsigned char name[] = "melody.nii";
+  unsigned char comment[] = "a comment";
+  gz_header header{};
+  header.extra = extra;
+  header.extra_len = sizeof extra;
+  header.name = name;
+  header.comment = comment;
+  header.hcrc = 1;
+  EXPECT_EQ(deflateSetHeader(&zs, &header), Z_OK);
+  std::string out(deflateBound(&zs, data.size()) + 64, '\0');
+  zs.next_in = reinterpret_cast<Bytef*>(const_cast<char*>(data.data()));
+  zs.avail_in = static_cast<uInt>(data.size());
+  zs.next_out = reinterpret_cast<Bytef*>(&out[0]);
+  zs.avail_out = static_cast<uInt>(out.size());
+  EXPECT_EQ(deflate(&zs, Z_FINISH), Z_STREAM_END);
+  out.resize(zs.total_out);
+  deflateEnd(&zs);
+  return out;
+}
+
+TEST(VolumeStream, GzipHeaderFieldsAndTrailerChecks) {
+  ScratchDir dir;
+  HeaderSpec spec;
+  spec.dims = {3, 2, 1, 5};
+  const std::string data = HeaderBytes(spec) + RawBytes(Series(6, 5));
+  const std::string member = GzipWithHeaderFields(data);
+  ASSERT_EQ(static_cast<unsigned char>(member[3]), 0x1e);  // FHCRC|FEXTRA|FNAME|FCOMMENT
+  const std::string path = dir / "fields.nii.gz";
+  const auto put = [&](const std::string& bytes) {
+    std::ofstream(path, std::ios::binary) << bytes;  // as they are, not compressed again
+  };
+  put(member);
+  EXPECT_EQ(StreamAll(path, {0, 2, 5}, 2).all, Expected({0, 2, 5}, 5));
+  // Two such members one after the other read as their concatenated data.
+  const std::string half =
+      GzipWithHeaderFields(data.substr(0, 200)) + GzipWithHeaderFields(data.substr(200));
+  put(half);
+  EXPECT_EQ(StreamAll(path, {0, 2, 5}, 2).all, Expected({0, 2, 5}, 5));
+
+  std::string wrong_length = member;
+  wrong_length[wrong_length.size() - 4] ^= 0x01;  // ISIZE, little-endian
+  put(wrong_length);
+  EXPECT_EQ(ErrorOf([&] { StreamAll(path, {0}, 5); }),
+            path + ": corrupt gzip data (incorrect length check)");
+  put(member.substr(0, member.size() - 3));
+  EXPECT_EQ(ErrorOf([&] { StreamAll(path, {0}, 5); }),
+            path + ": file ends before the end of its gzip stream (truncated)");
+  std::string reserved = member;
+  reserved[3] = static_cast<char>(reserved[3] | 0x20);
+  put(reserved);
+  EXPECT_NE(ErrorOf([&] { StreamAll(path, {0}, 5); }).find("unknown header flags set"),
+            std::string::npos);
+}
+
 TEST(VolumeStream, ConcatenatedGzipMembers) {
   ScratchDir dir;
   HeaderSpec spec;
@@ -211,8 +280,8 @@ RC_GTEST_PROP(VolumeStream, AnySubsetAndBlock, ()) {
   const int block = *rc::gen::inRange(1, 14);
   const bool gzip = *rc::gen::arbitrary<bool>();
   const int n = nx * ny * nz;
-  const auto keep = *rc::gen::container<std::vector<bool>>(static_cast<size_t>(n),
-                                                          rc::gen::arbitrary<bool>());
+  const auto keep =
+      *rc::gen::container<std::vector<bool>>(static_cast<size_t>(n), rc::gen::arbitrary<bool>());
   std::vector<int64_t> voxels;
   for (int i = 0; i < n; ++i) {
     if (keep[static_cast<size_t>(i)]) voxels.push_back(i);
