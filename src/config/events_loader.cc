@@ -27,13 +27,6 @@ bool Contains(const std::vector<std::string>& names, const std::string& name) {
   return std::find(names.begin(), names.end(), name) != names.end();
 }
 
-// The message of an Error without the location prefix that Error adds.
-std::string BareMessage(const Error& error) {
-  const std::string text = error.what();
-  const std::string prefix = error.where().ToString() + ": ";
-  return text.compare(0, prefix.size(), prefix) == 0 ? text.substr(prefix.size()) : text;
-}
-
 struct CellRule {
   std::string column;
   std::string what;     // completes "expected ..."
@@ -50,13 +43,9 @@ std::optional<EventsByCondition> LoadEventsTable(YamlReader& reader, const Resol
   auto report = [&](const SourceLocation& where, const std::string& message) {
     reporter.Add(Severity::kError, where, message, anchor);
   };
-  Table table;
-  try {
-    table = ReadTable(path.shown);
-  } catch (const Error& error) {
-    report(error.where(), BareMessage(error));
-    return std::nullopt;
-  }
+  const std::optional<Table> read = reader.ReadTableAt(path, anchor);
+  if (!read) return std::nullopt;
+  const Table& table = *read;
   static const std::vector<CellRule> kRules = {
       {"onset", "a number in seconds", "give the onset in seconds", true},
       {"duration", "a number in seconds", "give the duration in seconds (0 for an impulse)", true},

@@ -13,16 +13,9 @@ std::string ParticipantKey(const std::string& id) {
 void CheckParticipants(YamlReader& reader, const ResolvedPath& path, const SourceLocation& anchor,
                        const std::vector<SubjectSpec>& subjects) {
   Reporter& reporter = reader.reporter();
-  Table table;
-  try {
-    table = ReadTable(path.shown);
-  } catch (const Error& error) {
-    const std::string prefix = error.where().ToString() + ": ";
-    std::string message = error.what();
-    if (message.compare(0, prefix.size(), prefix) == 0) message = message.substr(prefix.size());
-    reporter.Add(Severity::kError, error.where(), message, anchor);
-    return;
-  }
+  const std::optional<Table> read = reader.ReadTableAt(path, anchor);
+  if (!read) return;
+  const Table& table = *read;
   const int id_column = table.ColumnIndex("participant_id");
   if (id_column < 0) {
     const std::string near = ClosestMatch("participant_id", table.header);

@@ -204,6 +204,21 @@ ResolvedPath YamlReader::Resolve(const std::string& path) const {
           (fs::path(shown_dir_) / given).lexically_normal().string()};
 }
 
+std::optional<Table> YamlReader::ReadTableAt(const ResolvedPath& path,
+                                             const SourceLocation& anchor) {
+  try {
+    return ReadTable(path.shown);
+  } catch (const boldsum::Error& error) {
+    // The message without the location prefix the Error carries; the location is kept.
+    const std::string text = error.what();
+    const std::string prefix = error.where().ToString() + ": ";
+    reporter_->Add(Severity::kError, error.where(),
+                   text.compare(0, prefix.size(), prefix) == 0 ? text.substr(prefix.size()) : text,
+                   anchor);
+    return std::nullopt;
+  }
+}
+
 std::optional<ResolvedPath> YamlReader::ExistingFile(const Field& field, const std::string& what) {
   const std::optional<std::string> text = Text(field, what);
   if (!text) return std::nullopt;

@@ -12,6 +12,7 @@
 #include <vector>
 
 #include "boldsum/error.h"
+#include "boldsum/io.h"
 #include "config/keys.h"
 
 namespace boldsum::config {
@@ -92,6 +93,9 @@ class YamlReader {
   // A path-valued field naming a file that must exist; nullopt (after reporting) if it
   // is not text, does not exist, or is a folder.
   std::optional<ResolvedPath> ExistingFile(const Field& field, const std::string& what);
+  // The TSV table at `path` (named by the config at `anchor`); nullopt after reporting
+  // why it could not be read, at the table's own file and line.
+  std::optional<Table> ReadTableAt(const ResolvedPath& path, const SourceLocation& anchor);
 
   // "'two'" for a scalar, "a mapping", "a list" or "nothing".
   static std::string Describe(const YAML::Node& node);

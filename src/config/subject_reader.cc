@@ -89,16 +89,9 @@ std::optional<RunSpec> ReadRun(YamlReader& reader, const Field& field, const Mod
 void CheckConfoundsHeader(YamlReader& reader, const ResolvedPath& path,
                           const SourceLocation& anchor, const ModelSpec& model) {
   Reporter& reporter = reader.reporter();
-  Table table;
-  try {
-    table = ReadTable(path.shown);
-  } catch (const Error& error) {
-    const std::string prefix = error.where().ToString() + ": ";
-    std::string message = error.what();
-    if (message.compare(0, prefix.size(), prefix) == 0) message = message.substr(prefix.size());
-    reporter.Add(Severity::kError, error.where(), message, anchor);
-    return;
-  }
+  const std::optional<Table> read = reader.ReadTableAt(path, anchor);
+  if (!read) return;
+  const Table& table = *read;
   std::vector<std::pair<std::string, std::string>> needed;  // column, where it is named
   for (const std::string& name : model.confounds) needed.emplace_back(name, "confounds");
   if (model.censor) needed.emplace_back(model.censor->column, "censor.column");
