@@ -51,7 +51,11 @@ std::vector<float> ReadVolume(const std::string& path, ImageGeometry* geometry);
 // them on the caller's thread, so that the background thread does nothing else.
 class VolumeStream {
  public:
-  VolumeStream(const std::string& path, std::vector<int64_t> voxels, int block_volumes);
+  // With `sum_grid`, the reader thread also sums every voxel of the grid over the
+  // volumes it reads (see GridSums), so that a caller needing the mean image need not
+  // gather the whole grid.
+  VolumeStream(const std::string& path, std::vector<int64_t> voxels, int block_volumes,
+               bool sum_grid = false);
   ~VolumeStream();
   VolumeStream(const VolumeStream&) = delete;
   VolumeStream& operator=(const VolumeStream&) = delete;
@@ -61,6 +65,9 @@ class VolumeStream {
   // scl_slope/scl_inter applied. Returns false, leaving `block` untouched, at the end.
   // Throws Error("<path>: ...") on a truncated or corrupt file.
   bool Next(Eigen::MatrixXf* block);
+  // With sum_grid, once Next() has returned false: per grid voxel (linear index), the
+  // sum of its values (scaled as in Next) over all volumes.
+  const std::vector<double>& GridSums() const;
 
  private:
   struct Impl;

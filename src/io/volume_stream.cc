@@ -45,6 +45,8 @@ struct VolumeStream::Impl {
   int block_volumes = 1;
   int tile_volumes = 1;
   std::unique_ptr<ByteSource> source;
+  bool sum_grid = false;
+  std::vector<double> grid_sums;  // written by the reader; read after it has finished
 
   std::mutex mutex;
   std::condition_variable changed;
@@ -95,6 +97,7 @@ void VolumeStream::Impl::Run() {
         throw Error(TruncationMessage(path, first + complete, total));
       }
       if (first + count == total) source->CheckToEnd();
+      if (sum_grid) SumVolumes(layout, raw.data(), count, grid_sums.data());
       std::lock_guard<std::mutex> lock(mutex);
       tile_count[slot] = count;
       ++queued;
@@ -115,7 +118,8 @@ void VolumeStream::Impl::Run() {
   changed.notify_all();
 }
 
-VolumeStream::VolumeStream(const std::string& path, std::vector<int64_t> voxels, int block_volumes)
+VolumeStream::VolumeStream(const std::string& path, std::vector<int64_t> voxels, int block_volumes,
+                           bool sum_grid)
     : impl_(new Impl) {
   Impl& s = *impl_;
   s.path = path;
@@ -137,6 +141,8 @@ VolumeStream::VolumeStream(const std::string& path, std::vector<int64_t> voxels,
     }
   }
   s.voxels = std::move(voxels);
+  s.sum_grid = sum_grid;
+  if (sum_grid) s.grid_sums.assign(static_cast<size_t>(n_voxels), 0.0);
   s.source = std::make_unique<ByteSource>(s.layout.data_path, s.layout.data_offset);
   if (!s.source->IsCompressed()) {
     // An uncompressed file's length tells at once whether every volume is there.
@@ -163,6 +169,18 @@ VolumeStream::~VolumeStream() {
 }
 
 const ImageGeometry& VolumeStream::geometry() const { return impl_->layout.geometry; }
+
+const std::vector<double>& VolumeStream::GridSums() const {
+  Impl& s = *impl_;
+  if (!s.sum_grid) throw Error(s.path + ": the stream was not asked to sum the grid");
+  if (s.next_volume < s.layout.geometry.n_volumes) {
+    throw Error(s.path + ": grid sums asked for before every volume was read");
+  }
+  // Every tile has been handed out; the reader is about to finish, if it has not.
+  std::unique_lock<std::mutex> lock(s.mutex);
+  s.changed.wait(lock, [&] { return s.finished; });
+  return s.grid_sums;
+}
 
 bool VolumeStream::Next(Eigen::MatrixXf* block) {
   Impl& s = *impl_;

@@ -58,6 +58,15 @@ void GatherRun(const Convert& convert, const unsigned char* raw, int n_volumes,
   }
 }
 
+template <typename Convert, typename T>
+void SumRun(const Convert& convert, const unsigned char* raw, int n_volumes, int64_t n_voxels,
+            double* sums) {
+  for (int v = 0; v < n_volumes; ++v) {
+    const unsigned char* volume = raw + v * n_voxels * int64_t{sizeof(T)};
+    for (int64_t i = 0; i < n_voxels; ++i) sums[i] += convert(volume + i * int64_t{sizeof(T)});
+  }
+}
+
 // Calls `body(converter, T{})` with the converter matching the layout.
 template <typename T, typename Body>
 void DispatchFlags(const NiftiLayout& layout, Body&& body) {
@@ -98,6 +107,15 @@ void GatherVolumes(const NiftiLayout& layout, const unsigned char* raw, int n_vo
   Dispatch(layout, [&](const auto& convert, auto type) {
     GatherRun<std::decay_t<decltype(convert)>, decltype(type)>(
         convert, raw, n_volumes, volume_bytes, voxels, block, rows, first_row);
+  });
+}
+
+void SumVolumes(const NiftiLayout& layout, const unsigned char* raw, int n_volumes,
+                double* sums) {
+  const int64_t n_voxels = layout.geometry.n_voxels();
+  Dispatch(layout, [&](const auto& convert, auto type) {
+    SumRun<std::decay_t<decltype(convert)>, decltype(type)>(convert, raw, n_volumes, n_voxels,
+                                                            sums);
   });
 }
 

@@ -20,4 +20,9 @@ void GatherVolumes(const NiftiLayout& layout, const unsigned char* raw, int n_vo
                    const std::vector<int64_t>& voxels, float* block, int64_t rows,
                    int64_t first_row);
 
+// Adds each voxel of `n_volumes` consecutive raw volumes at `raw`, converted, to
+// sums[voxel] (sums has one entry per voxel of a volume).
+void SumVolumes(const NiftiLayout& layout, const unsigned char* raw, int n_volumes,
+                double* sums);
+
 }  // namespace boldsum

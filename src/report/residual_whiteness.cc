@@ -13,7 +13,7 @@ namespace boldsum {
 namespace {
 
 constexpr float kNaNf = std::numeric_limits<float>::quiet_NaN();
-constexpr int kBlockVolumes = 16;
+constexpr int kBlockVolumes = 32;
 constexpr const char* kCacheMagic = "boldsum residual diagnostics 1";
 
 // Whitens consecutive blocks of residuals of many series and accumulates their
@@ -21,20 +21,24 @@ constexpr const char* kCacheMagic = "boldsum residual diagnostics 1";
 class WhitenedSeries {
  public:
   WhitenedSeries(const Eigen::VectorXd& rho, int lags)
-      : rho_(rho.transpose()), accumulator_(static_cast<int>(rho.size()), lags) {}
+      : rho_(rho), previous_(Eigen::VectorXd::Zero(rho.size())),
+        accumulator_(static_cast<int>(rho.size()), lags) {}
 
-  void Add(const Eigen::MatrixXd& residual) {
-    Eigen::MatrixXd whitened(residual.rows(), residual.cols());
-    for (Eigen::Index t = 0; t < residual.rows(); ++t) {
-      if (first_) {
-        whitened.row(t) = (1.0 - rho_.array().square()).sqrt() * residual.row(t).array();
-        first_ = false;
-      } else {
-        whitened.row(t) = residual.row(t).array() - rho_.array() * previous_.array();
-      }
-      previous_ = residual.row(t);
+  // `residual`: rows = the next volumes, columns = series. Whitened in place (one series
+  // at a time, its values contiguous), then accumulated.
+  void Add(Eigen::MatrixXd* residual) {
+    const Eigen::Index b = residual->rows();
+    if (b == 0) return;
+    for (Eigen::Index v = 0; v < residual->cols(); ++v) {
+      double* e = residual->col(v).data();
+      const double rho = rho_(v);
+      const double last = e[b - 1];
+      for (Eigen::Index t = b - 1; t > 0; --t) e[t] -= rho * e[t - 1];
+      e[0] = first_ ? std::sqrt(1.0 - rho * rho) * e[0] : e[0] - rho * previous_(v);
+      previous_(v) = last;
     }
-    accumulator_.Add(whitened);
+    first_ = false;
+    accumulator_.Add(*residual);
   }
 
   RunWhiteness Test(const std::vector<unsigned char>& valid, int model_df) const {
@@ -57,8 +61,8 @@ class WhitenedSeries {
   }
 
  private:
-  Eigen::RowVectorXd rho_;
-  Eigen::RowVectorXd previous_;
+  Eigen::VectorXd rho_;
+  Eigen::VectorXd previous_;  // each series' last residual before whitening
   bool first_ = true;
   AutocorrelationAccumulator accumulator_;
 };
@@ -131,33 +135,31 @@ ResidualDiagnostics MeasureResiduals(const SubjectPlan& plan, const FitRecord& r
     const Eigen::MatrixXd beta = UsableBeta(fit);
     WhitenedSeries series(UsableRho(fit, noise), kWhitenessLags);
     if (!images) {
-      series.Add(run.regions.values - run.design.x * beta);
+      Eigen::MatrixXd residual = run.regions.values - run.design.x * beta;
+      series.Add(&residual);
     } else {
       const int64_t n_grid = run.geometry.n_voxels();
       if (grid_sum.size() == 0) grid_sum = Eigen::VectorXd::Zero(n_grid);
-      std::vector<int64_t> all(static_cast<size_t>(n_grid));
-      for (int64_t i = 0; i < n_grid; ++i) all[static_cast<size_t>(i)] = i;
-      VolumeStream stream(run.spec->data_path, std::move(all), kBlockVolumes);
+      VolumeStream stream(run.spec->data_path, record.voxels, kBlockVolumes, /*sum_grid=*/true);
       Eigen::MatrixXf block;
-      Eigen::MatrixXd y(0, 0);
+      Eigen::MatrixXd residual;  // reused from block to block
       int row = 0;
       while (stream.Next(&block)) {
         if (IsInterrupted()) throw Error("interrupted");
         const Eigen::Index b = block.rows();
         if (row + b > run.n_volumes)
           throw Error(run.spec->data_path + ": more volumes than planned");
-        grid_sum += block.cast<double>().colwise().sum().transpose();
-        y.resize(b, static_cast<Eigen::Index>(record.voxels.size()));
-        for (size_t v = 0; v < record.voxels.size(); ++v) {
-          y.col(static_cast<Eigen::Index>(v)) = block.col(record.voxels[v]).cast<double>();
-        }
-        series.Add(y - run.design.x.middleRows(row, b) * beta);
+        residual = block.cast<double>();  // same shape from block to block: no allocation
+        residual.noalias() -= run.design.x.middleRows(row, b) * beta;
+        series.Add(&residual);
         row += static_cast<int>(b);
       }
       if (row != run.n_volumes) {
         throw Error(run.spec->data_path + ": " + std::to_string(row) + " volumes read; " +
                     std::to_string(run.n_volumes) + " expected");
       }
+      const std::vector<double>& sums = stream.GridSums();
+      for (int64_t i = 0; i < n_grid; ++i) grid_sum(i) += sums[static_cast<size_t>(i)];
       grid_volumes += row;
     }
     out.runs.push_back(series.Test(fit.valid, model_df));

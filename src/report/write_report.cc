@@ -33,11 +33,13 @@ std::string CacheKey(const std::string& folder, NoiseModel noise) {
          " model_df " + std::to_string(WhitenessModelDf(noise));
 }
 
-std::string ReadWholeFile(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream bytes;
-  bytes << in.rdbuf();
-  return bytes.str();
+// A cache file's bytes; "" (no usable cache) when it cannot be read.
+std::string ReadCacheBytes(const std::string& path) {
+  try {
+    return ReadFileBytes(path);
+  } catch (const Error&) {
+    return std::string();
+  }
 }
 
 GroupResults LoadGroup(const std::string& path) {
@@ -125,7 +127,7 @@ SubjectRow ReportSubject(ReportState* state, const SubjectSpec& subject,
   } else {
     const std::string cache = (fs::path(state->cache_dir) / (subject.id + ".bin")).string();
     const std::string key = CacheKey(in.folder, state->spec->model.noise);
-    if (fs::exists(cache) && ParseResidualDiagnostics(ReadWholeFile(cache), key, &residuals)) {
+    if (fs::exists(cache) && ParseResidualDiagnostics(ReadCacheBytes(cache), key, &residuals)) {
       ++state->cached;
       how = "residual diagnostics reused";
       in.residuals = &residuals;

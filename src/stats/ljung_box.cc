@@ -1,5 +1,6 @@
 #include "stats/ljung_box.h"
 
+#include <algorithm>
 #include <boost/math/distributions/chi_squared.hpp>
 #include <cmath>
 #include <limits>
@@ -43,9 +44,9 @@ AutocorrelationAccumulator::AutocorrelationAccumulator(int n_series, int max_lag
     : max_lag_(max_lag),
       sum_(Eigen::RowVectorXd::Zero(n_series)),
       sum_squares_(Eigen::RowVectorXd::Zero(n_series)),
-      lagged_(Eigen::MatrixXd::Zero(max_lag, n_series)),
-      head_(0, n_series),
-      recent_(0, n_series) {
+      lagged_(Eigen::MatrixXd::Zero(std::max(max_lag, 1), n_series)),
+      head_(Eigen::MatrixXd::Zero(std::max(max_lag, 1), n_series)),
+      recent_(Eigen::MatrixXd::Zero(std::max(max_lag, 1), n_series)) {
   if (max_lag < 1) throw Error("autocorrelations need a maximum lag of at least 1");
 }
 
@@ -54,33 +55,34 @@ void AutocorrelationAccumulator::Add(const Eigen::MatrixXd& block) {
     throw Error("autocorrelation block has " + std::to_string(block.cols()) + " series; expected " +
                 std::to_string(sum_.size()));
   }
-  const Eigen::Index b = block.rows();
+  const int b = static_cast<int>(block.rows());
   if (b == 0) return;
-  const Eigen::Index before = recent_.rows();
-  Eigen::MatrixXd joined(before + b, block.cols());
-  joined << recent_, block;
-  for (int k = 1; k <= max_lag_; ++k) {
-    // Rows of this block whose value k steps back exists.
-    const Eigen::Index start = std::max<Eigen::Index>(before, k);
-    const Eigen::Index rows = before + b - start;
-    if (rows <= 0) continue;
-    lagged_.row(k - 1) +=
-        (joined.middleRows(start, rows).array() * joined.middleRows(start - k, rows).array())
-            .colwise()
-            .sum()
-            .matrix();
+  const int before = std::min(n_, max_lag_);  // values kept from earlier blocks
+  const int keep = std::min(max_lag_, before + b);
+  joined_.resize(static_cast<size_t>(before + b));
+  // One series at a time (its values are contiguous), with no allocation per block.
+  for (Eigen::Index j = 0; j < block.cols(); ++j) {
+    double* joined = joined_.data();
+    const double* x = block.col(j).data();
+    std::copy(recent_.col(j).data(), recent_.col(j).data() + before, joined);
+    std::copy(x, x + b, joined + before);
+    for (int k = 1; k <= max_lag_; ++k) {
+      // Rows of this block whose value k steps back exists.
+      double s = 0.0;
+      for (int t = std::max(before, k); t < before + b; ++t) s += joined[t] * joined[t - k];
+      lagged_(k - 1, j) += s;
+    }
+    double sum = 0.0, squares = 0.0;
+    for (int t = 0; t < b; ++t) {
+      sum += x[t];
+      squares += x[t] * x[t];
+    }
+    sum_(j) += sum;
+    sum_squares_(j) += squares;
+    for (int t = n_; t < max_lag_ && t - n_ < b; ++t) head_(t, j) = x[t - n_];
+    std::copy(joined + before + b - keep, joined + before + b, recent_.col(j).data());
   }
-  sum_ += block.colwise().sum();
-  sum_squares_ += block.array().square().colwise().sum().matrix();
-  if (head_.rows() < max_lag_) {
-    const Eigen::Index take = std::min<Eigen::Index>(max_lag_ - head_.rows(), b);
-    Eigen::MatrixXd head(head_.rows() + take, block.cols());
-    head << head_, block.topRows(take);
-    head_.swap(head);
-  }
-  const Eigen::Index keep = std::min<Eigen::Index>(max_lag_, joined.rows());
-  recent_ = joined.bottomRows(keep);
-  n_ += static_cast<int>(b);
+  n_ += b;
 }
 
 Eigen::MatrixXd AutocorrelationAccumulator::Autocorrelations() const {
@@ -98,7 +100,7 @@ Eigen::MatrixXd AutocorrelationAccumulator::Autocorrelations() const {
     double head_part = 0.0, tail_part = 0.0;
     for (int k = 1; k <= max_lag_; ++k) {
       head_part += head_(k - 1, j);                 // sum_{t<k} x_t
-      tail_part += recent_(recent_.rows() - k, j);  // sum_{t>=n-k} x_t
+      tail_part += recent_(max_lag_ - k, j);  // sum_{t>=n-k} x_t (n > max_lag)
       const double ck = lagged_(k - 1, j) - mean * ((sum_(j) - head_part) + (sum_(j) - tail_part)) +
                         (n - k) * mean * mean;
       r(k - 1, j) = (spread && std::isfinite(c0)) ? ck / c0 : kNaN;

@@ -34,8 +34,9 @@ class AutocorrelationAccumulator {
   int n_ = 0;
   Eigen::RowVectorXd sum_, sum_squares_;
   Eigen::MatrixXd lagged_;  // row k-1: sum_{t>=k} x_t x_{t-k}
-  Eigen::MatrixXd head_;    // the first max_lag values (fewer while n < max_lag)
-  Eigen::MatrixXd recent_;  // the last min(n, max_lag) values, oldest first
+  Eigen::MatrixXd head_;    // rows 0..min(n, max_lag)-1: the first values
+  Eigen::MatrixXd recent_;  // rows 0..min(n, max_lag)-1: the last values, oldest first
+  std::vector<double> joined_;  // one series' recent values and its new block
 };
 
 struct LjungBoxResult {

@@ -1,5 +1,10 @@
 #include "study/fit_record.h"
 
+#include <fcntl.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <cerrno>
 #include <cstring>
 
 #include "boldsum/error.h"
@@ -37,9 +42,23 @@ class Writer {
   std::string bytes_;
 };
 
+// Reads the record straight from the file into each destination (no copy of the
+// whole file in between), the large arrays on huge pages where the kernel grants them.
 class Reader {
  public:
-  Reader(std::string path, std::string bytes) : path_(std::move(path)), bytes_(std::move(bytes)) {}
+  explicit Reader(std::string path) : path_(std::move(path)) {
+    fd_ = ::open(path_.c_str(), O_RDONLY | O_CLOEXEC);
+    struct stat info;
+    if (fd_ < 0 || ::fstat(fd_, &info) != 0 || !S_ISREG(info.st_mode)) {
+      Close();
+      throw Error(path_ + ": cannot read the saved fit");
+    }
+    size_ = static_cast<size_t>(info.st_size);
+  }
+  ~Reader() { Close(); }
+  Reader(const Reader&) = delete;
+  Reader& operator=(const Reader&) = delete;
+
   template <typename T>
   T Get() {
     T value;
@@ -49,25 +68,47 @@ class Reader {
   template <typename T>
   void GetArray(T* data, size_t count) {
     const size_t size = sizeof(T) * count;
-    if (size > bytes_.size() - offset_) throw Error(path_ + ": fit record is truncated");
-    std::memcpy(data, bytes_.data() + offset_, size);
+    if (size > size_ - offset_) throw Error(path_ + ": fit record is truncated");
+    char* out = reinterpret_cast<char*>(data);
+    for (size_t done = 0; done < size;) {
+      const ssize_t n = ::read(fd_, out + done, size - done);
+      if (n < 0 && errno == EINTR) continue;
+      if (n < 0) throw Error(path_ + ": cannot read the saved fit");
+      if (n == 0) throw Error(path_ + ": fit record is truncated");
+      done += static_cast<size_t>(n);
+    }
     offset_ += size;
   }
   Eigen::MatrixXd GetMatrix() {
     const auto rows = Get<int64_t>();
     const auto cols = Get<int64_t>();
-    if (rows < 0 || cols < 0 || rows * cols * 8 > static_cast<int64_t>(bytes_.size())) {
+    if (rows < 0 || cols < 0 || (cols > 0 && rows > static_cast<int64_t>(size_) / 8 / cols)) {
       throw Error(path_ + ": fit record is corrupt");
     }
     Eigen::MatrixXd m(rows, cols);
+    AdviseHugePages(m.data(), sizeof(double) * static_cast<size_t>(m.size()));
     GetArray(m.data(), static_cast<size_t>(m.size()));
     return m;
   }
-  bool AtEnd() const { return offset_ == bytes_.size(); }
+  // A count of elements of `element_bytes` bytes that the rest of the file can hold.
+  size_t Count(size_t element_bytes) {
+    const auto count = Get<int64_t>();
+    if (count < 0 || static_cast<uint64_t>(count) > (size_ - offset_) / element_bytes) {
+      throw Error(path_ + ": fit record is corrupt");
+    }
+    return static_cast<size_t>(count);
+  }
+  bool AtEnd() const { return offset_ == size_; }
 
  private:
+  void Close() {
+    if (fd_ >= 0) ::close(fd_);
+    fd_ = -1;
+  }
+
   std::string path_;
-  std::string bytes_;
+  int fd_ = -1;
+  size_t size_ = 0;
   size_t offset_ = 0;
 };
 
@@ -113,25 +154,24 @@ std::string SerializeFitRecord(const std::vector<int64_t>& voxels,
 }
 
 FitRecord LoadFitRecord(const std::string& path) {
-  std::string bytes;
+  Reader in(path);
+  char magic[sizeof kMagic - 1] = {};
+  bool is_record = false;
   try {
-    bytes = ReadFileBytes(path);
+    in.GetArray(magic, sizeof magic);
+    is_record = std::memcmp(magic, kMagic, sizeof magic) == 0;
   } catch (const Error&) {
-    throw Error(path + ": cannot read the saved fit");
   }
-  if (bytes.compare(0, sizeof kMagic - 1, kMagic) != 0) {
-    throw Error(path + ": not a boldsum fit record (or of another version)");
-  }
-  Reader in(path, bytes.substr(sizeof kMagic - 1));
+  if (!is_record) throw Error(path + ": not a boldsum fit record (or of another version)");
   FitRecord record;
-  record.voxels.resize(static_cast<size_t>(in.Get<int64_t>()));
+  record.voxels.resize(in.Count(sizeof(int64_t)));
   in.GetArray(record.voxels.data(), record.voxels.size());
-  record.runs.resize(static_cast<size_t>(in.Get<int64_t>()));
+  record.runs.resize(in.Count(5 * sizeof(int32_t)));
   for (RunFit& run : record.runs) {
     for (int* value : {&run.n_volumes, &run.rank, &run.dof, &run.n_nonfinite, &run.n_constant}) {
       *value = in.Get<int32_t>();
     }
-    run.kept_columns.resize(static_cast<size_t>(in.Get<int64_t>()));
+    run.kept_columns.resize(in.Count(sizeof(int32_t)));
     for (int& column : run.kept_columns) column = in.Get<int32_t>();
     run.gram.xtx = in.GetMatrix();
     run.gram.lag = in.GetMatrix();
@@ -139,7 +179,7 @@ FitRecord LoadFitRecord(const std::string& path) {
     run.beta = in.GetMatrix();
     run.sigma2 = in.GetMatrix();
     run.rho = in.GetMatrix();
-    run.valid.resize(static_cast<size_t>(in.Get<int64_t>()));
+    run.valid.resize(in.Count(1));
     in.GetArray(run.valid.data(), run.valid.size());
   }
   if (!in.AtEnd()) throw Error(path + ": fit record has trailing bytes");

@@ -121,6 +121,62 @@ TEST(VolumeStream, EndLeavesTheBlockUntouched) {
   EXPECT_EQ(m, last);
 }
 
+// The reader's grid sums equal the sums of every voxel streamed in full, for any voxel
+// subset handed out, with scl_slope/scl_inter applied as Next() applies them.
+TEST(VolumeStream, GridSumsMatchTheStreamedVolumes) {
+  ScratchDir dir;
+  for (const char* name : {"g.nii", "g.nii.gz"}) {
+    SCOPED_TRACE(name);
+    const std::string path = Write4d(dir, name, {3, 2, 2, 7});
+    VolumeStream stream(path, {1, 4}, 3, /*sum_grid=*/true);
+    Eigen::MatrixXf m;
+    EXPECT_NE(ErrorOf([&] { stream.GridSums(); }).find("before every volume was read"),
+              std::string::npos);
+    while (stream.Next(&m)) {
+    }
+    const std::vector<double>& sums = stream.GridSums();
+    ASSERT_EQ(sums.size(), 12u);
+    for (int64_t i = 0; i < 12; ++i) {
+      double expected = 0.0;  // sum over t of 1000 t + i
+      for (int t = 0; t < 7; ++t) expected += 1000.0 * t + static_cast<double>(i);
+      EXPECT_EQ(sums[static_cast<size_t>(i)], expected) << "voxel " << i;
+    }
+  }
+  // int16 with scaling: the sums are of the scaled values.
+  HeaderSpec spec;
+  spec.dims = {2, 2, 1, 3};
+  spec.datatype = DT_INT16;
+  spec.bitpix = 16;
+  spec.slope = 0.5;
+  spec.inter = 10.0;
+  std::vector<int16_t> raw;
+  for (int t = 0; t < 3; ++t) {
+    for (int i = 0; i < 4; ++i) raw.push_back(static_cast<int16_t>(100 * t - 7 * i));
+  }
+  const std::string scaled = dir / "scaled.nii.gz";
+  WriteBytes(scaled, HeaderBytes(spec) + RawBytes(raw));
+  const Streamed all = StreamAll(scaled, {0, 1, 2, 3}, 2);
+  VolumeStream stream(scaled, {2}, 2, /*sum_grid=*/true);
+  Eigen::MatrixXf m;
+  while (stream.Next(&m)) {
+  }
+  for (int i = 0; i < 4; ++i) {
+    EXPECT_DOUBLE_EQ(stream.GridSums()[static_cast<size_t>(i)], all.all.col(i).cast<double>().sum());
+    EXPECT_DOUBLE_EQ(all.all(1, i), 0.5 * (100 - 7 * i) + 10.0);
+  }
+}
+
+TEST(VolumeStream, GridSumsOnlyWhenAsked) {
+  ScratchDir dir;
+  const std::string path = Write4d(dir, "n.nii", {2, 1, 1, 2});
+  VolumeStream stream(path, {0}, 2);
+  Eigen::MatrixXf m;
+  while (stream.Next(&m)) {
+  }
+  EXPECT_NE(ErrorOf([&] { stream.GridSums(); }).find("not asked to sum the grid"),
+            std::string::npos);
+}
+
 TEST(VolumeStream, StoppingEarlyDoesNotHang) {
   ScratchDir dir;
   const std::string path = Write4d(dir, "s.nii.gz", {8, 8, 8, 40});
