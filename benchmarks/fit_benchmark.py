@@ -220,6 +220,8 @@ def print_table(args, scale, rows):
          "<= %gx" % TARGET_GZIP)
     line("    (fit_throughput: read+gather alone, s)", ["%.2f" % r["ours"]["load_s"] for r in rows])
     line("    (boldsum fit with its HTML report, wall s)", ["%.2f" % r["fit_report_s"] for r in rows])
+    line("    (ratio fit with report / gzip)",
+         ["%.2fx" % (r["fit_report_s"] / r["gzip_s"]) for r in rows])
     line("(c) boldsum fit peak RSS, MB", ["%.0f" % (r["rss"] / 1e6) for r in rows])
     line("    uncompressed 4D, MB (.nii.gz MB)",
          ["%.0f (%.0f)" % (r["raw_bytes"] / 1e6, r["gz_bytes"] / 1e6) for r in rows])
