@@ -13,6 +13,7 @@
 #include <limits>
 #include <map>
 #include <ostream>
+#include <sstream>
 
 #include "boldsum/io.h"
 #include "boldsum/study.h"
@@ -32,6 +33,7 @@ struct SubjectInputs {
   const SubjectSpec* spec = nullptr;
   std::string folder;
   RecordedSubject record;
+  std::string model_sha256;     // the fit's fingerprint, as summary.json records it
   ImageGeometry mask_geometry;  // images; dims stay 0 when the mask was unreadable
   // Region tables: per estimable t contrast, the cells (region, estimate, variance, dof)
   // of the subject's summary.tsv, verbatim.
@@ -68,10 +70,13 @@ std::string DescribeGrid(const ImageGeometry& g) {
 
 // Empty when the subject's recorded fingerprint matches the config and its inputs;
 // otherwise why it is out of date.
+// Why the subject's results are out of date ("" when they are not); `model_sha256` gets
+// the recorded fit fingerprint.
 std::string Staleness(const StudySpec& spec, const SubjectSpec& subject, const std::string& summary,
-                      ChecksumCache* checksums) {
+                      ChecksumCache* checksums, std::string* model_sha256) {
   const RecordedFingerprint recorded = ReadRecordedFingerprint(summary);
   if (!recorded.found) return "its summary.json records no fit fingerprint";
+  *model_sha256 = recorded.fingerprint.model_sha256;
   SubjectFingerprint now;
   try {
     now = FingerprintSubject(spec, subject, checksums);
@@ -214,7 +219,7 @@ GatherPlan PlanGather(const StudySpec& spec, const StudyOptions& options) {
       problems.push_back(error.what());
       continue;
     }
-    const std::string why = Staleness(spec, spec_subject, summary, &checksums);
+    const std::string why = Staleness(spec, spec_subject, summary, &checksums, &subject.model_sha256);
     if (!why.empty()) {
       stale.push_back(spec_subject.id + " (" + why + ")");
       continue;
@@ -290,6 +295,95 @@ GatherPlan PlanGather(const StudySpec& spec, const StudyOptions& options) {
   return plan;
 }
 
+// The stacks are a function of the subjects' outputs, which their summary.json files
+// identify (fingerprint and contrasts), the participants table, the stacked contrasts'
+// names and the tool version. OUT/pool-ready/.sources holds this key on its first line;
+// a gather whose key is unchanged has nothing to do. The lines after it, "stack <name>
+// <key>", identify each contrast's pair of stacks alone (see StackKey), so that a gather
+// after a contrast edit keeps the stacks of the contrasts that did not change.
+constexpr const char* kSourcesFile = ".sources";
+
+std::string SourcesKey(const StudySpec& spec, const GatherPlan& plan) {
+  std::string key = std::string("boldsum ") + BOLDSUM_VERSION + "\n";
+  for (const ContrastSpec* contrast : plan.t_contrasts) key += "contrast " + contrast->name + "\n";
+  if (!spec.participants_path.empty()) {
+    key += "participants " + FileSha256(spec.participants_path) + "\n";
+  }
+  for (const SubjectInputs& subject : plan.subjects) {
+    key +=
+        "subject " + subject.spec->id + " " + FileSha256(subject.folder + "/summary.json") + "\n";
+  }
+  return Sha256(key);
+}
+
+// A contrast's estimate and variance stacks are volume i = subject i's files of that
+// contrast, which the subject's fit fingerprint and the contrast's outputs_key identify
+// (equal keys mean byte-identical files; subject_outputs.h). "" when a subject's
+// summary.json has no outputs_key (written by an older version): never reused.
+std::string StackKey(const GatherPlan& plan, const ContrastSpec& contrast) {
+  std::string key = std::string("boldsum ") + BOLDSUM_VERSION + "\nstack " + contrast.name + "\n";
+  for (const SubjectInputs& subject : plan.subjects) {
+    const RecordedContrast* recorded = subject.record.Find(contrast.name);
+    if (recorded == nullptr || subject.model_sha256.empty()) return "";
+    if (recorded->estimable && recorded->outputs_key.empty()) return "";
+    key += subject.spec->id + " " + subject.model_sha256 + " " +
+           (recorded->estimable ? recorded->outputs_key : std::string("not estimable")) + "\n";
+  }
+  return Sha256(key);
+}
+
+struct Sources {
+  std::string key;
+  std::map<std::string, std::string> stacks;  // contrast name -> StackKey
+};
+
+std::string SourcesText(const Sources& sources) {
+  std::string text = sources.key + "\n";
+  for (const auto& [name, key] : sources.stacks) {
+    if (!key.empty()) text += "stack " + name + " " + key + "\n";
+  }
+  return text;
+}
+
+// The .sources of an earlier gather; empty when there is none or it cannot be read.
+Sources ReadSources(const fs::path& folder) {
+  Sources sources;
+  std::string text;
+  try {
+    text = ReadFileBytes((folder / kSourcesFile).string());
+  } catch (const Error&) {
+    return sources;
+  }
+  std::istringstream lines(text);
+  std::string line;
+  if (!std::getline(lines, sources.key)) return Sources();
+  while (std::getline(lines, line)) {
+    std::istringstream fields(line);
+    std::string word, name, key;
+    if (fields >> word >> name >> key && word == "stack") sources.stacks[name] = key;
+  }
+  return sources;
+}
+
+// True when the folder's key equals `key` and every file a gather writes is there.
+bool IsUpToDate(const GatherPlan& plan, const fs::path& folder, const std::string& key) {
+  std::vector<std::string> files = {kSourcesFile, "subjects.tsv"};
+  if (plan.kind == DataKind::kImage) {
+    files.push_back("mask.nii.gz");
+    for (const ContrastSpec* contrast : plan.t_contrasts) {
+      files.push_back(contrast->name + ".estimate.nii.gz");
+      files.push_back(contrast->name + ".variance.nii.gz");
+    }
+  } else {
+    files.push_back("summaries.tsv");
+  }
+  std::error_code ec;
+  for (const std::string& file : files) {
+    if (!fs::is_regular_file(folder / file, ec)) return false;
+  }
+  return ReadSources(folder).key == key;
+}
+
 void WriteSubjectsTable(const GatherPlan& plan, const OutputStage& stage, std::ostream* log) {
   std::string text = "subject";
   for (const ContrastSpec* contrast : plan.t_contrasts) text += "\tdof_" + contrast->name;
@@ -322,7 +416,11 @@ void WriteSubjectsTable(const GatherPlan& plan, const OutputStage& stage, std::o
 }
 
 // The intersection of the subjects' masks, then one 4D stack at a time (n x voxels floats).
-void WriteImageStacks(const GatherPlan& plan, const OutputStage& stage, std::ostream* log) {
+// The mask and each t contrast's estimate and variance stacks. A contrast whose StackKey
+// equals the one `before` records keeps the stacks in `old_folder` (hard links; see
+// OutputStage::Adopt). `after` gets the new keys.
+void WriteImageStacks(const GatherPlan& plan, const OutputStage& stage, const fs::path& old_folder,
+                      const Sources& before, Sources* after, std::ostream* log) {
   ImageGeometry grid = plan.subjects.front().mask_geometry;
   const size_t voxels = static_cast<size_t>(grid.n_voxels());
   const auto read_volume = [&](const std::string& path) {
@@ -350,7 +448,23 @@ void WriteImageStacks(const GatherPlan& plan, const OutputStage& stage, std::ost
   ImageGeometry stack_grid = grid;
   stack_grid.n_volumes = n;
   stack_grid.tr_s = 0.0;  // volumes are subjects, not time points
+  std::vector<std::string> kept;
   for (const ContrastSpec* contrast : plan.t_contrasts) {
+    const std::string key = StackKey(plan, *contrast);
+    after->stacks[contrast->name] = key;
+    const auto earlier = before.stacks.find(contrast->name);
+    if (!key.empty() && earlier != before.stacks.end() && earlier->second == key) {
+      std::error_code ec;
+      const std::string estimate = contrast->name + ".estimate.nii.gz";
+      const std::string variance = contrast->name + ".variance.nii.gz";
+      if (fs::is_regular_file(old_folder / estimate, ec) &&
+          fs::is_regular_file(old_folder / variance, ec)) {
+        stage.Adopt(estimate, (old_folder / estimate).string());
+        stage.Adopt(variance, (old_folder / variance).string());
+        kept.push_back(contrast->name);
+        continue;
+      }
+    }
     for (const char* kind : {".estimate.nii.gz", ".variance.nii.gz"}) {
       std::vector<float> stack(voxels * static_cast<size_t>(n), kNaN);
       for (size_t i = 0; i < plan.subjects.size(); ++i) {
@@ -362,6 +476,9 @@ void WriteImageStacks(const GatherPlan& plan, const OutputStage& stage, std::ost
       }
       WriteImage(stage.PathFor(contrast->name + kind), stack_grid, stack, n);
     }
+  }
+  if (log && !kept.empty()) {
+    *log << "stacks of " << Join(kept) << " unchanged since the last gather, kept\n";
   }
 }
 
@@ -387,48 +504,6 @@ void WriteRegionSummaries(const GatherPlan& plan, const OutputStage& stage) {
   WriteFileAtomically(stage.PathFor("summaries.tsv"), text);
 }
 
-// The stacks are a function of the subjects' outputs, which their summary.json files
-// identify (fingerprint and contrasts), the participants table, the stacked contrasts'
-// names and the tool version. OUT/pool-ready/.sources holds this key; a gather whose key
-// is unchanged has nothing to do.
-constexpr const char* kSourcesFile = ".sources";
-
-std::string SourcesKey(const StudySpec& spec, const GatherPlan& plan) {
-  std::string key = std::string("boldsum ") + BOLDSUM_VERSION + "\n";
-  for (const ContrastSpec* contrast : plan.t_contrasts) key += "contrast " + contrast->name + "\n";
-  if (!spec.participants_path.empty()) {
-    key += "participants " + FileSha256(spec.participants_path) + "\n";
-  }
-  for (const SubjectInputs& subject : plan.subjects) {
-    key +=
-        "subject " + subject.spec->id + " " + FileSha256(subject.folder + "/summary.json") + "\n";
-  }
-  return Sha256(key);
-}
-
-// True when the folder's key equals `key` and every file a gather writes is there.
-bool IsUpToDate(const GatherPlan& plan, const fs::path& folder, const std::string& key) {
-  std::vector<std::string> files = {kSourcesFile, "subjects.tsv"};
-  if (plan.kind == DataKind::kImage) {
-    files.push_back("mask.nii.gz");
-    for (const ContrastSpec* contrast : plan.t_contrasts) {
-      files.push_back(contrast->name + ".estimate.nii.gz");
-      files.push_back(contrast->name + ".variance.nii.gz");
-    }
-  } else {
-    files.push_back("summaries.tsv");
-  }
-  std::error_code ec;
-  for (const std::string& file : files) {
-    if (!fs::is_regular_file(folder / file, ec)) return false;
-  }
-  try {
-    return ReadFileBytes((folder / kSourcesFile).string()) == key + "\n";
-  } catch (const Error&) {
-    return false;
-  }
-}
-
 }  // namespace
 
 void GatherStudy(const StudySpec& spec, const StudyOptions& options, std::ostream& log) {
@@ -440,14 +515,17 @@ void GatherStudy(const StudySpec& spec, const StudyOptions& options, std::ostrea
     if (out) *out << folder.string() << ": up to date, not gathered again\n";
     return;
   }
+  const Sources before = ReadSources(folder);
+  Sources after;
+  after.key = key;
   OutputStage stage(plan.root, kPoolReadyFolder);
   WriteSubjectsTable(plan, stage, out);
   if (plan.kind == DataKind::kImage) {
-    WriteImageStacks(plan, stage, out);
+    WriteImageStacks(plan, stage, folder, before, &after, out);
   } else {
     WriteRegionSummaries(plan, stage);
   }
-  WriteFileAtomically(stage.PathFor(kSourcesFile), key + "\n");
+  WriteFileAtomically(stage.PathFor(kSourcesFile), SourcesText(after));
   stage.Commit();
   if (!out) return;
   std::vector<std::string> f_names;

@@ -44,6 +44,18 @@ def differing_files(a, b):
     return sorted(set(differ))
 
 
+def differing_stacks(a, b):
+    """Files of pool-ready/ (stacks, subjects.tsv, .sources) that differ between two trees."""
+    names = set()
+    for top in (a, b):
+        folder = os.path.join(top, "pool-ready")
+        names |= set(os.listdir(folder)) if os.path.isdir(folder) else set()
+    return sorted(n for n in names
+                  if not all(os.path.exists(os.path.join(t, "pool-ready", n)) for t in (a, b))
+                  or not filecmp.cmp(os.path.join(a, "pool-ready", n),
+                                     os.path.join(b, "pool-ready", n), shallow=False))
+
+
 def keep_subjects(config, count):
     """The demo config cut down to its first `count` subjects, to keep the test fast."""
     text = open(config).read()
@@ -104,6 +116,21 @@ with tempfile.TemporaryDirectory() as root:
            differing_files(out, os.path.join(root, "clean-contrast")))
     expect("removed contrast's files are gone", not os.path.exists(os.path.join(out, "s01", "melodies_vs_rest.z.nii.gz")))
 
+    # A contrast added, the others as they were: the unchanged contrasts' stacks are kept
+    # (hard links to the earlier files) and pool-ready equals a clean gather, bitwise.
+    text = open(config).read().replace("contrasts:\n", "contrasts:\n  press_half: {press: 0.5}\n", 1)
+    open(config, "w").write(text)
+    log = run("fit", config)
+    kept = [line for line in log.splitlines() if "unchanged since the last gather, kept" in line]
+    expect("added contrast: the other t contrasts' stacks are kept",
+           len(kept) == 1 and "press_only" in kept[0] and "known_vs_new" in kept[0]
+           and "press_half" not in kept[0], log)
+    clean = clean_fit("added")
+    expect("added contrast: pool-ready equals a clean gather, bitwise",
+           differing_stacks(out, clean) == [], differing_stacks(out, clean))
+    expect("added contrast: subject folders equal a clean fit, bitwise",
+           differing_files(out, clean) == [], differing_files(out, clean))
+
     # Confound edit: a model change, so every subject is refitted.
     text = open(config).read().replace("confounds: [shift_x, shift_y, shift_z]", "confounds: [shift_x, shift_y]")
     open(config, "w").write(text)
@@ -111,6 +138,9 @@ with tempfile.TemporaryDirectory() as root:
     expect("confound edit refits", log.count("stale: model settings changed, fitting") == 3, log)
     clean = clean_fit("confound")
     expect("confound edit equals a clean fit, bitwise", differing_files(out, clean) == [], differing_files(out, clean))
+    expect("confound edit: no stack kept, pool-ready equals a clean gather",
+           "unchanged since the last gather" not in log and differing_stacks(out, clean) == [],
+           log + str(differing_stacks(out, clean)))
 
     # Input touched (same bytes): up to date.
     bold = os.path.join(study, "s02", "run-1_bold.nii.gz")
