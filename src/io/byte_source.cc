@@ -1,7 +1,7 @@
 #include "io/byte_source.h"
 
 #include <fcntl.h>
-#include <libdeflate.h>
+#include <isa-l/igzip_lib.h>
 #include <unistd.h>
 
 #include <algorithm>
@@ -14,13 +14,14 @@
 namespace boldsum {
 namespace {
 
-// inflate takes at most this many bytes per call (its counters are 32-bit).
+// The inflater takes at most this many bytes per call (its counters are 32-bit).
 constexpr size_t kMaxChunk = size_t{1} << 30;
 
 }  // namespace
 
 ByteSource::ByteSource(const std::string& path, int64_t offset, size_t buffer_bytes)
-    : path_(path), in_(std::max<size_t>(buffer_bytes, 4096)) {
+    : path_(path), in_(kHeadroom + std::max<size_t>(buffer_bytes, 4096)) {
+  next_in_ = in_.data() + kHeadroom;
   fd_ = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd_ < 0) throw Error(path + ": cannot open (" + std::strerror(errno) + ")");
 #ifdef POSIX_FADV_SEQUENTIAL
@@ -28,34 +29,32 @@ ByteSource::ByteSource(const std::string& path, int64_t offset, size_t buffer_by
 #endif
   try {
     Refill();
-    compressed_ = zs_.avail_in >= 2 && in_[0] == 0x1f && in_[1] == 0x8b;
+    compressed_ = avail_in_ >= 2 && next_in_[0] == 0x1f && next_in_[1] == 0x8b;
     if (compressed_) {
-      // -15: raw deflate with a 32 KiB window; the gzip wrapper is read here.
-      if (inflateInit2(&zs_, -15) != Z_OK) throw Error(path + ": cannot start zlib");
-      zs_ready_ = true;
-      zs_.next_in += 2;
-      zs_.avail_in -= 2;
+      inflater_ = std::make_unique<inflate_state>();
+      next_in_ += 2;
+      avail_in_ -= 2;
       if (!ReadMemberHeader()) stream_done_ = true;  // Read() reports the truncation
     }
     Skip(offset);
   } catch (...) {
-    if (zs_ready_) inflateEnd(&zs_);
     ::close(fd_);
     throw;
   }
 }
 
 ByteSource::~ByteSource() {
-  if (zs_ready_) inflateEnd(&zs_);
   if (fd_ >= 0) ::close(fd_);
 }
 
 bool ByteSource::Refill() {
-  // Keep unread bytes at the front, then fill the rest of the buffer.
-  size_t got = zs_.avail_in;
-  if (got > 0 && zs_.next_in != in_.data()) std::memmove(in_.data(), zs_.next_in, got);
-  while (got < in_.size() && !input_done_) {
-    const ssize_t n = ::read(fd_, in_.data() + got, in_.size() - got);
+  // Keep unread bytes at the front (after the headroom), then fill the rest.
+  unsigned char* const start = in_.data() + kHeadroom;
+  size_t got = avail_in_;
+  if (got > 0 && next_in_ != start) std::memmove(start, next_in_, got);
+  const size_t capacity = in_.size() - kHeadroom;
+  while (got < capacity && !input_done_) {
+    const ssize_t n = ::read(fd_, start + got, capacity - got);
     if (n < 0) {
       if (errno == EINTR) continue;
       throw Error(path_ + ": read error (" + std::strerror(errno) + ")");
@@ -63,17 +62,17 @@ bool ByteSource::Refill() {
     if (n == 0) input_done_ = true;
     got += static_cast<size_t>(n);
   }
-  const bool more = got > zs_.avail_in;
-  zs_.next_in = in_.data();
-  zs_.avail_in = static_cast<uInt>(got);
+  const bool more = got > avail_in_;
+  next_in_ = start;
+  avail_in_ = got;
   return more;
 }
 
 bool ByteSource::TakeByte(unsigned char* byte) {
-  if (zs_.avail_in == 0) Refill();
-  if (zs_.avail_in == 0) return false;
-  *byte = *zs_.next_in++;
-  --zs_.avail_in;
+  if (avail_in_ == 0) Refill();
+  if (avail_in_ == 0) return false;
+  *byte = *next_in_++;
+  --avail_in_;
   return true;
 }
 
@@ -103,7 +102,8 @@ bool ByteSource::ReadMemberHeader() {
   if (flags & 0x02) {  // FHCRC: two bytes, not checked (as gzip does not)
     if (!TakeByte(&b) || !TakeByte(&b)) return false;
   }
-  crc_ = 0;
+  isal_inflate_init(inflater_.get());
+  inflater_->crc_flag = ISAL_GZIP_NO_HDR;  // raw deflate; the CRC-32 of the output is kept
   member_bytes_ = 0;
   return true;
 }
@@ -119,21 +119,41 @@ void ByteSource::CheckMemberTrailer() {
       uint32_t{t[0]} | uint32_t{t[1]} << 8 | uint32_t{t[2]} << 16 | uint32_t{t[3]} << 24;
   const uint32_t size =
       uint32_t{t[4]} | uint32_t{t[5]} << 8 | uint32_t{t[6]} << 16 | uint32_t{t[7]} << 24;
-  if (crc != crc_) throw Error(path_ + ": corrupt gzip data (incorrect data check)");
+  if (crc != inflater_->crc) throw Error(path_ + ": corrupt gzip data (incorrect data check)");
   if (size != member_bytes_) throw Error(path_ + ": corrupt gzip data (incorrect length check)");
 }
 
 bool ByteSource::StartNextMember() {
-  if (zs_.avail_in < 2) Refill();
+  if (avail_in_ < 2) Refill();
   // Bytes after a member that do not start another one are ignored, as gzip does.
-  if (zs_.avail_in < 2 || zs_.next_in[0] != 0x1f || zs_.next_in[1] != 0x8b) return false;
-  zs_.next_in += 2;
-  zs_.avail_in -= 2;
+  if (avail_in_ < 2 || next_in_[0] != 0x1f || next_in_[1] != 0x8b) return false;
+  next_in_ += 2;
+  avail_in_ -= 2;
   if (!ReadMemberHeader()) {
     throw Error(path_ + ": file ends before the end of its gzip stream (truncated)");
   }
-  inflateReset(&zs_);
   return true;
+}
+
+void ByteSource::PutBackOverread() {
+  // The inflater reads input 8 bytes at a time into a bit buffer. At the end of the
+  // deflate data, the bits it has not used are the padding of the last byte and then
+  // whole bytes that follow the stream (the trailer): they go back in front of next_in_.
+  inflate_state& state = *inflater_;
+  if (state.tmp_in_size != 0) {  // input held back inside a block header: not expected here
+    throw Error(path_ + ": corrupt gzip data (cannot find the end of a member)");
+  }
+  const int bits = state.read_in_length;
+  const int whole = bits / 8;
+  const int padding = bits % 8;
+  for (int i = whole - 1; i >= 0; --i) {
+    --next_in_;  // never before in_.data(): Refill() leaves kHeadroom >= 8 bytes free
+    *const_cast<unsigned char*>(next_in_) =
+        static_cast<unsigned char>(state.read_in >> (padding + 8 * i));
+    ++avail_in_;
+  }
+  state.read_in = 0;
+  state.read_in_length = 0;
 }
 
 size_t ByteSource::Read(void* dst, size_t n) {
@@ -141,11 +161,11 @@ size_t ByteSource::Read(void* dst, size_t n) {
   size_t done = 0;
   if (!compressed_) {
     // Serve what is left in the buffer, then read straight into `dst`.
-    const size_t buffered = std::min<size_t>(zs_.avail_in, n);
+    const size_t buffered = std::min<size_t>(avail_in_, n);
     if (buffered > 0) {
-      std::memcpy(out, zs_.next_in, buffered);
-      zs_.next_in += buffered;
-      zs_.avail_in -= static_cast<uInt>(buffered);
+      std::memcpy(out, next_in_, buffered);
+      next_in_ += buffered;
+      avail_in_ -= buffered;
       done = buffered;
     }
     while (done < n && !input_done_) {
@@ -159,25 +179,33 @@ size_t ByteSource::Read(void* dst, size_t n) {
     }
     return done;
   }
+  inflate_state& state = *inflater_;
   while (done < n && !stream_done_) {
-    if (zs_.avail_in == 0) Refill();
+    if (avail_in_ == 0) Refill();
     const size_t want = std::min(n - done, kMaxChunk);
-    zs_.next_out = out + done;
-    zs_.avail_out = static_cast<uInt>(want);
-    const int ret = inflate(&zs_, Z_NO_FLUSH);
-    const size_t produced = want - zs_.avail_out;
-    crc_ = libdeflate_crc32(crc_, out + done, produced);
+    const uint32_t offered = static_cast<uint32_t>(std::min<size_t>(avail_in_, kMaxChunk));
+    state.next_in = const_cast<uint8_t*>(next_in_);
+    state.avail_in = offered;
+    state.next_out = out + done;
+    state.avail_out = static_cast<uint32_t>(want);
+    const int ret = isal_inflate(&state);
+    next_in_ += offered - state.avail_in;
+    avail_in_ -= offered - state.avail_in;
+    const size_t produced = want - state.avail_out;
     member_bytes_ += static_cast<uint32_t>(produced);
     done += produced;
-    if (ret == Z_STREAM_END) {
+    if (ret < 0) {
+      const char* what = ret == ISAL_INVALID_BLOCK    ? "invalid block"
+                         : ret == ISAL_INVALID_SYMBOL ? "invalid symbol"
+                         : ret == ISAL_INVALID_LOOKBACK ? "invalid distance too far back"
+                                                        : "invalid stream";
+      throw Error(path_ + ": corrupt gzip data (" + what + ")");
+    }
+    if (state.block_state == ISAL_BLOCK_FINISH) {
+      PutBackOverread();
       CheckMemberTrailer();
       if (!StartNextMember()) stream_done_ = true;
-    } else if (ret == Z_DATA_ERROR || ret == Z_NEED_DICT) {
-      throw Error(path_ + ": corrupt gzip data (" +
-                  std::string(zs_.msg != nullptr ? zs_.msg : "invalid stream") + ")");
-    } else if (ret == Z_MEM_ERROR) {
-      throw Error(path_ + ": out of memory while inflating");
-    } else if (produced == 0 && zs_.avail_in == 0 && input_done_) {
+    } else if (produced == 0 && avail_in_ == 0 && input_done_) {
       break;  // the file ends inside the stream: the caller reports the truncation
     }
   }
