@@ -10,9 +10,9 @@
 namespace boldsum {
 namespace {
 
-constexpr int kTileTarget = 170;  // pixels across the larger side of a tile
+constexpr int kTileTarget = 170;  // displayed pixels across the larger side of a tile
 constexpr int kColumns = 6;
-constexpr int kGap = 2;
+constexpr int kGap = 1;  // image pixels between tiles
 
 }  // namespace
 
@@ -76,8 +76,9 @@ MosaicPicture DrawMosaic(const ImageGeometry& g, const std::vector<unsigned char
   const int w = hi[ah] - lo[ah] + 1, h = hi[av] - lo[av] + 1;
   const int scale =
       std::clamp(static_cast<int>(std::lround(double(kTileTarget) / std::max(w, h))), 1, 8);
-  mosaic.tile_width = w * scale;
-  mosaic.tile_height = h * scale;
+  mosaic.scale = scale;
+  mosaic.tile_width = w;
+  mosaic.tile_height = h;
   mosaic.gap = kGap;
   mosaic.columns = std::min(kColumns, static_cast<int>(slices.size()));
   const int rows = (static_cast<int>(slices.size()) + mosaic.columns - 1) / mosaic.columns;
@@ -104,11 +105,7 @@ MosaicPicture DrawMosaic(const ImageGeometry& g, const std::vector<unsigned char
             colour = DivergingColour(value, layers.overlay_limit);
           }
         }
-        for (int dy = 0; dy < scale; ++dy) {
-          for (int dx = 0; dx < scale; ++dx) {
-            mosaic.image.at(x0 + u * scale + dx, y0 + v * scale + dy) = colour;
-          }
-        }
+        mosaic.image.at(x0 + u, y0 + v) = colour;
       }
     }
     // World z of the tile's centre.

@@ -308,16 +308,19 @@ std::string ColourBarSvg(double limit, double threshold, bool positive_only,
 
 std::string MosaicSvg(const MosaicPicture& mosaic, const std::string& title) {
   const double top = 22;
-  const double width = std::max(mosaic.image.width, 200), height = top + mosaic.image.height;
+  const int s = mosaic.scale;
+  const int shown_width = mosaic.image.width * s, shown_height = mosaic.image.height * s;
+  const double width = std::max(shown_width, 200), height = top + shown_height;
   std::string svg = Open(width, height, title);
-  svg += "<image x=\"0\" y=\"" + N(top) + "\" width=\"" + std::to_string(mosaic.image.width) +
-         "\" height=\"" + std::to_string(mosaic.image.height) +
-         "\" style=\"image-rendering:pixelated\" href=\"" + PngDataUri(mosaic.image) + "\"/>\n";
+  svg += "<image x=\"0\" y=\"" + N(top) + "\" width=\"" + std::to_string(shown_width) +
+         "\" height=\"" + std::to_string(shown_height) +
+         "\" preserveAspectRatio=\"none\" style=\"image-rendering:pixelated\" href=\"" +
+         PngDataUri(mosaic.image) + "\"/>\n";
   for (size_t t = 0; t < mosaic.tile_labels.size(); ++t) {
     const int column = static_cast<int>(t) % mosaic.columns;
     const int row = static_cast<int>(t) / mosaic.columns;
-    const double x = column * (mosaic.tile_width + mosaic.gap) + 3;
-    const double y = top + row * (mosaic.tile_height + mosaic.gap) + 12;
+    const double x = column * (mosaic.tile_width + mosaic.gap) * s + 3;
+    const double y = top + row * (mosaic.tile_height + mosaic.gap) * s + 12;
     svg += Text(x, y, mosaic.tile_labels[t], "start",
                 " fill=\"white\" stroke=\"black\" stroke-width=\"2\" paint-order=\"stroke\"");
   }

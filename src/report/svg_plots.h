@@ -46,10 +46,14 @@ std::string BarChartSvg(const std::vector<std::string>& labels, const std::vecto
 std::string ColourBarSvg(double limit, double threshold, bool positive_only,
                          const std::string& label);
 
-// A mosaic picture with the label of each tile written in its top-left corner.
+// A mosaic picture with the label of each tile written in its top-left corner. The image
+// has one pixel per voxel (sizes and gap in image pixels); the page shows it magnified
+// `scale` times with pixelated rendering, so each voxel stays a sharp square and the
+// embedded PNG stays small.
 struct MosaicPicture {
   RgbImage image;
   int tile_width = 0, tile_height = 0, columns = 1, gap = 0;
+  int scale = 1;
   std::vector<std::string> tile_labels;
 };
 std::string MosaicSvg(const MosaicPicture& mosaic, const std::string& title);
