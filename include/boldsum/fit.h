@@ -92,6 +92,9 @@ ContrastEstimate EstimateContrast(const RunFit& fit, const Eigen::MatrixXd& c,
 std::vector<ContrastEstimate> EstimateContrasts(const RunFit& fit,
                                                 const std::vector<Eigen::MatrixXd>& contrasts,
                                                 const FitOptions& options);
+// Whether the rows of `c` (q x p) lie in the row space of the run's design: the
+// `estimable` that EstimateContrast reports, without any per-voxel work.
+bool IsContrastEstimable(const RunFit& fit, const Eigen::MatrixXd& c);
 
 // t (q = 1) or F (q > 1) and the matching z, per voxel; NaN where not valid.
 struct ContrastTest {

@@ -72,6 +72,15 @@ bool AreRowsEstimable(const DesignGram& gram, const std::vector<int>& kept,
 
 }  // namespace
 
+bool IsContrastEstimable(const RunFit& fit, const Eigen::MatrixXd& c) {
+  if (c.rows() < 1 || c.cols() != fit.beta.rows()) {
+    throw Error("contrast matrix is " + std::to_string(c.rows()) + " x " +
+                std::to_string(c.cols()) + "; it needs at least one row and " +
+                std::to_string(fit.beta.rows()) + " columns (one per design column)");
+  }
+  return AreRowsEstimable(fit.gram, fit.kept_columns, c);
+}
+
 std::vector<ContrastEstimate> EstimateContrasts(const RunFit& fit,
                                                 const std::vector<Eigen::MatrixXd>& contrasts,
                                                 const FitOptions& options) {

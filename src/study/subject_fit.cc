@@ -48,8 +48,14 @@ void CombineContrast(const SubjectFit& subject, ContrastOutcome* outcome, int th
   }
   outcome->estimable = !usable.empty();
   if (!outcome->estimable) return;
+  if (outcome->files_kept) {  // only what summary.json records: no per-voxel values
+    outcome->combined = ContrastEstimate();
+    outcome->combined.q = usable.front()->q;
+    outcome->combined.dof = 0;
+    for (const ContrastEstimate* run : usable) outcome->combined.dof += run->dof;
+    return;
+  }
   outcome->combined = CombineFixedEffects(usable);
-  if (outcome->files_kept) return;
   outcome->test = TestContrast(outcome->combined, outcome->spec->is_f, threads);
 }
 
@@ -89,23 +95,39 @@ void EvaluateContrasts(const StudySpec& spec, SubjectFit* subject, int threads,
   for (const RunFit& fit : subject->runs) {
     for (size_t v = 0; v < n_voxels; ++v) subject->valid[v] &= fit.valid[v];
   }
-  // Every contrast of a run at once (one factorisation per voxel serves them all).
   std::vector<ContrastOutcome> outcomes(spec.contrasts.size());
-  for (size_t k = 0; k < outcomes.size(); ++k) outcomes[k].spec = &spec.contrasts[k];
+  for (size_t k = 0; k < outcomes.size(); ++k) {
+    ContrastOutcome& outcome = outcomes[k];
+    outcome.spec = &spec.contrasts[k];
+    for (const RunPlan& run : runs) outcome.weights.push_back(ContrastWeights(*outcome.spec, run.design));
+    // A contrast that keeps its earlier files needs no per-voxel values.
+    outcome.files_kept = keep_files && keep_files(outcome, subject->plan);
+  }
   for (size_t r = 0; r < runs.size(); ++r) {
+    const RunFit& fit = subject->runs[r];
+    // The other contrasts of the run at once (one factorisation per voxel serves them all;
+    // each is bit for bit what it would be alone).
     std::vector<Eigen::MatrixXd> weights;
-    for (ContrastOutcome& outcome : outcomes) {
-      outcome.weights.push_back(ContrastWeights(*outcome.spec, runs[r].design));
-      weights.push_back(outcome.weights.back());
+    for (const ContrastOutcome& outcome : outcomes) {
+      if (!outcome.files_kept) weights.push_back(outcome.weights[r]);
     }
-    std::vector<ContrastEstimate> estimates = EstimateContrasts(subject->runs[r], weights, options);
-    for (size_t k = 0; k < outcomes.size(); ++k) {
-      outcomes[k].per_run.push_back(std::move(estimates[k]));
+    std::vector<ContrastEstimate> estimates;
+    if (!weights.empty()) estimates = EstimateContrasts(fit, weights, options);
+    size_t next = 0;
+    for (ContrastOutcome& outcome : outcomes) {
+      if (!outcome.files_kept) {
+        outcome.per_run.push_back(std::move(estimates[next++]));
+        continue;
+      }
+      ContrastEstimate estimability;
+      estimability.q = static_cast<int>(outcome.weights[r].rows());
+      estimability.dof = fit.dof;
+      estimability.estimable = IsContrastEstimable(fit, outcome.weights[r]);
+      outcome.per_run.push_back(std::move(estimability));
     }
   }
   for (ContrastOutcome& outcome : outcomes) {
     const ContrastSpec& contrast = *outcome.spec;
-    outcome.files_kept = keep_files && keep_files(outcome, subject->plan);
     CombineContrast(*subject, &outcome, threads);
     for (int index : outcome.runs_left_out) {
       subject->warnings.AddWarning(

@@ -24,8 +24,9 @@ struct ContrastOutcome {
   ContrastEstimate combined;  // over runs_used
   ContrastTest test;          // t or F of `combined`, and z; empty when
                               // files_kept
-  bool files_kept = false;    // its files are taken over unchanged from
-                              // the subject's earlier outputs
+  bool files_kept = false;    // its files are taken over unchanged from the subject's
+                              // earlier outputs; then per_run and combined hold only q,
+                              // dof and estimable (no per-voxel values)
 };
 
 struct SubjectFit {
@@ -59,7 +60,7 @@ SubjectFit FitSubject(const StudySpec& spec, SubjectPlan plan, int threads,
 // FitSubject on the same inputs, without reading the data. Throws Error when the record
 // does not match the plan (run count, design width, voxel count).
 // `keep_files` (optional) is asked for each contrast once its weights are known; when it
-// says yes, the contrast's test statistics are not computed and files_kept is set (the
+// says yes, files_kept is set and no per-voxel value of the contrast is computed (the
 // caller takes its files over from earlier outputs of the same fit and weights).
 using KeepContrastFiles = std::function<bool(const ContrastOutcome&, const SubjectPlan&)>;
 SubjectFit RefitContrasts(const StudySpec& spec, SubjectPlan plan, FitRecord record, int threads,

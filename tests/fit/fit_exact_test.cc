@@ -155,6 +155,12 @@ TEST(FitExact, ZeroAndDuplicatedColumnsAreDroppedAndContrastsChecked) {
   EXPECT_FALSE(EstimateContrast(fit, row({{0, 1.0}, {2, -1.0}}), options).estimable);
   const ContrastEstimate zero_col = EstimateContrast(fit, row({{1, 1.0}, {3, 1.0}}), options);
   EXPECT_FALSE(zero_col.estimable);
+  // IsContrastEstimable answers as EstimateContrast does, for each of these rows.
+  for (const Eigen::MatrixXd& c : {row({{0, 1.0}, {2, 1.0}}), row({{3, 1.0}}), row({{0, 1.0}}),
+                                   row({{0, 1.0}, {2, -1.0}}), row({{1, 1.0}, {3, 1.0}})}) {
+    EXPECT_EQ(IsContrastEstimable(fit, c), EstimateContrast(fit, c, options).estimable) << c;
+  }
+  EXPECT_THROW(IsContrastEstimable(fit, Eigen::MatrixXd::Ones(1, p)), Error);
   EXPECT_TRUE(zero_col.effect.array().isNaN().all());
   EXPECT_EQ(zero_col.valid, std::vector<unsigned char>(3, 0));
   const ContrastTest test = TestContrast(zero_col, false);
