@@ -1,24 +1,11 @@
 """Command-line behaviour of boldsum: exit codes, complete error reports with file,
 line and column, and no output written for bad input."""
 import os
-import subprocess
 import sys
 import tempfile
 
-BIN = os.environ["BOLDSUM_BIN"]
-failures = []
-
-
-def run(*args, cwd=None):
-    return subprocess.run([BIN, *args], capture_output=True, text=True, cwd=cwd)
-
-
-def expect(name, condition, detail=""):
-    print(("ok   " if condition else "FAIL ") + name)
-    if not condition:
-        print(detail)
-        failures.append(name)
-
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import boldsum as run, expect, finish  # noqa: E402
 
 ROI = "".join(f"{200 + (k % 7)}\t{100 + (k % 5)}\n" for k in range(60))
 EVENTS = "onset\tduration\ttrial_type\n10\t6\tsong\n50\t6\thum\n70\t6\tsong\n"
@@ -94,5 +81,4 @@ with tempfile.TemporaryDirectory() as root:
     result = run("demo", root)
     expect("demo into a non-empty folder: exit 1", result.returncode == 1, result.stderr)
 
-if failures:
-    sys.exit(f"{len(failures)} failure(s)")
+finish()

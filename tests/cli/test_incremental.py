@@ -6,26 +6,11 @@ import filecmp
 import os
 import re
 import shutil
-import subprocess
 import sys
 import tempfile
 
-BIN = os.environ["BOLDSUM_BIN"]
-failures = []
-
-
-def run(*args):
-    result = subprocess.run([BIN, *args], capture_output=True, text=True)
-    if result.returncode != 0:
-        sys.exit(f"boldsum {' '.join(args)} failed:\n{result.stdout}\n{result.stderr}")
-    return result.stdout
-
-
-def expect(name, condition, detail=""):
-    print(("ok   " if condition else "FAIL ") + name)
-    if not condition:
-        print(detail)
-        failures.append(name)
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import boldsum, boldsum_stdout as run, expect, finish  # noqa: E402
 
 
 def differing_files(a, b):
@@ -159,7 +144,7 @@ with tempfile.TemporaryDirectory() as root:
     log = run("fit", config)
     expect("changed events: only s02 refitted, file named",
            "s02: stale: inputs changed (run-2_events.tsv), fitting" in log and log.count("up to date, skipped") == 2, log)
-    status = subprocess.run([BIN, "status", config], capture_output=True, text=True)
+    status = boldsum("status", config)
     expect("status: all up to date after the fit, exit 0", status.returncode == 0 and status.stdout.count("up to date") == 3,
            status.stdout)
     clean = clean_fit("events")
@@ -167,9 +152,8 @@ with tempfile.TemporaryDirectory() as root:
 
     # status names what is stale or missing.
     shutil.rmtree(os.path.join(out, "s03"))
-    status = subprocess.run([BIN, "status", config], capture_output=True, text=True)
+    status = boldsum("status", config)
     expect("status: missing subject reported, exit 3",
            status.returncode == 3 and "s03\tmissing" in status.stdout, status.stdout)
 
-if failures:
-    sys.exit(f"{len(failures)} failure(s)")
+finish()

@@ -8,23 +8,13 @@ import hashlib
 import os
 import re
 import shutil
-import subprocess
 import sys
 import tempfile
 
-BIN = os.environ["BOLDSUM_BIN"]
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import boldsum as run, check, finish  # noqa: E402
+
 SOURCE = os.environ["BOLDSUM_SOURCE_DIR"]
-failures = []
-
-
-def check(name, ok, detail=""):
-    print(("ok   " if ok else "FAIL ") + name + ("  " + detail if detail else ""))
-    if not ok:
-        failures.append(name)
-
-
-def run(*args):
-    return subprocess.run([BIN, *args], capture_output=True, text=True)
 
 
 def tree_hashes(folder):
@@ -142,7 +132,4 @@ with tempfile.TemporaryDirectory() as root:
     result = run("report", cfg)
     check("report command with the folder blocked: exit 1", result.returncode == 1, result.stderr)
 
-if failures:
-    print("%d check(s) failed" % len(failures))
-    sys.exit(1)
-print("all checks passed")
+finish()

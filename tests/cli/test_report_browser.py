@@ -21,21 +21,17 @@ import time
 sys.path.insert(0, os.path.join(os.environ["BOLDSUM_SOURCE_DIR"], "tests", "reference"))
 from png_reader import read_png  # noqa: E402
 
-BIN = os.environ["BOLDSUM_BIN"]
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import boldsum, check, finish  # noqa: E402
+
 CHROMIUM = "/usr/bin/chromium"
 FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--no-first-run",
          "--disable-background-networking", "--disable-component-update", "--disable-sync"]
-failures = []
-
-
-def check(name, ok, detail=""):
-    print(("ok   " if ok else "FAIL ") + name + ("  " + detail if detail else ""))
-    if not ok:
-        failures.append(name)
 
 
 def run(*args):
-    result = subprocess.run([BIN, *args], capture_output=True, text=True)
+    """boldsum with `args`, its output printed when it fails."""
+    result = boldsum(*args)
     if result.returncode != 0:
         print(result.stdout + result.stderr)
     return result
@@ -283,7 +279,4 @@ with tempfile.TemporaryDirectory() as root:
         shutil.rmtree(profile, ignore_errors=True)
 
 print("took %.1f s" % (time.time() - start))
-if failures:
-    print("%d check(s) failed" % len(failures))
-    sys.exit(1)
-print("all checks passed")
+finish()
