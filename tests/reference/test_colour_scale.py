@@ -19,14 +19,10 @@ import sys
 import numpy as np
 from colorspacious import cspace_convert
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import check, finish  # noqa: E402
+
 PROBE = os.path.join(os.environ["BOLDSUM_PROBE_DIR"], "report_probe")
-failures = []
-
-
-def check(name, ok, detail=""):
-    print(("ok   " if ok else "FAIL ") + name + ("  " + detail if detail else ""))
-    if not ok:
-        failures.append(name)
 
 
 def lightness(rgb255):
@@ -71,7 +67,4 @@ for kind in ("protanomaly", "deuteranomaly", "tritanomaly"):
         check("%s: lightness still monotone on each side" % kind,
               np.all(np.diff(L[:middle + 1]) > 0) and np.all(np.diff(L[middle:]) < 0))
 
-if failures:
-    print("%d check(s) failed" % len(failures))
-    sys.exit(1)
-print("all checks passed")
+finish()

@@ -17,32 +17,19 @@ generous multiples of the nominal rates (0.1% for z > 3.09, 5% for |z| > 1.96).
 """
 import csv
 import os
-import subprocess
 import sys
 import tempfile
 
 import nibabel
 import numpy as np
 
-BIN = os.environ["BOLDSUM_BIN"]
-failures = []
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import boldsum_stdout as run, check, finish  # noqa: E402
+
 CENTRES = {"left_auditory": (7, 22, 17), "right_auditory": (32, 22, 17),
            "motor": (13, 27, 27), "control_region": (20, 8, 14)}
 PLANTED = ("left_auditory", "right_auditory")
 THRESHOLD = 3.09  # one-sided p < 0.001 uncorrected (common practice)
-
-
-def run(*args):
-    result = subprocess.run([BIN, *args], capture_output=True, text=True)
-    if result.returncode != 0:
-        sys.exit(f"boldsum {' '.join(args)} failed:\n{result.stdout}\n{result.stderr}")
-    return result.stdout
-
-
-def expect(name, condition, detail=""):
-    print(("ok   " if condition else "FAIL ") + name + ("  " + detail if detail else ""))
-    if not condition:
-        failures.append(name)
 
 
 def region_masks(shape):
@@ -93,8 +80,8 @@ def check_wls(study, contrast, rng):
         zw = design * w[:, None]
         beta = np.linalg.solve(design.T @ zw, zw.T @ y[i, j, k, :])
         worst = max(worst, abs(beta[0] - estimate[i, j, k]) / max(abs(beta[0]), 1e-3))
-    expect(f"{contrast}: pooled group mean = numpy WLS at 400 voxels (<= 1e-4 relative)",
-           worst <= 1e-4, f"largest relative difference {worst:.2e}")
+    check(f"{contrast}: pooled group mean = numpy WLS at 400 voxels (<= 1e-4 relative)",
+          worst <= 1e-4, f"largest relative difference {worst:.2e}")
 
 
 def main():
@@ -117,8 +104,8 @@ def main():
                                   .dataobj, dtype=np.float64)
             variance = np.asarray(nibabel.load(os.path.join(folder, "group_mean.variance.nii.gz"))
                                   .dataobj, dtype=np.float64)
-            expect(f"{contrast}: maps are finite inside the mask and NaN outside",
-                   np.all(np.isfinite(z[mask])) and np.all(np.isnan(z[~mask])))
+            check(f"{contrast}: maps are finite inside the mask and NaN outside",
+                  np.all(np.isfinite(z[mask])) and np.all(np.isnan(z[~mask])))
             for name, region in regions.items():
                 above = np.mean(z[region] > THRESHOLD)
                 mean_estimate = estimate[region].mean()
@@ -128,27 +115,26 @@ def main():
                       f"  se {se:5.2f}  share z>{THRESHOLD}: {above:.2f}")
                 # The region's mean pooled estimate carries the between-subject sampling
                 # error of 8 volunteers: within 2.5 of its voxels' standard error.
-                expect(f"{contrast} {name}: region mean estimate near the planted group mean",
-                       abs(mean_estimate - target) <= 2.5 * se)
+                check(f"{contrast} {name}: region mean estimate near the planted group mean",
+                      abs(mean_estimate - target) <= 2.5 * se)
                 if name in PLANTED and contrast == "melodies_vs_rest":
-                    expect(f"{contrast} {name}: effect found (>= 90% of voxels z > {THRESHOLD})",
-                           above >= 0.9)
+                    check(f"{contrast} {name}: effect found (>= 90% of voxels z > {THRESHOLD})",
+                          above >= 0.9)
                 if name in PLANTED and contrast == "known_vs_new":
                     # A weaker effect (two of eight volunteers show none): positive throughout.
-                    expect(f"{contrast} {name}: positive z in >= 90% of voxels",
-                           np.mean(z[region] > 0) >= 0.9)
+                    check(f"{contrast} {name}: positive z in >= 90% of voxels",
+                          np.mean(z[region] > 0) >= 0.9)
                 if name not in PLANTED:
-                    expect(f"{contrast} {name}: null region stays below {THRESHOLD}", above == 0)
+                    check(f"{contrast} {name}: null region stays below {THRESHOLD}", above == 0)
             high = np.mean(z[elsewhere] > THRESHOLD)
             either = np.mean(np.abs(z[elsewhere]) > 1.96)
             print(f"     {contrast}: false-positive fraction outside the regions "
                   f"({elsewhere.sum()} voxels): z > {THRESHOLD}: {100 * high:.3f}% (nominal 0.1%), "
                   f"|z| > 1.96: {100 * either:.2f}% (nominal 5%)")
-            expect(f"{contrast}: false positives elsewhere: z > {THRESHOLD} in <= 0.5%", high <= 0.005)
-            expect(f"{contrast}: false positives elsewhere: |z| > 1.96 in <= 7.5%", either <= 0.075)
+            check(f"{contrast}: false positives elsewhere: z > {THRESHOLD} in <= 0.5%", high <= 0.005)
+            check(f"{contrast}: false positives elsewhere: |z| > 1.96 in <= 7.5%", either <= 0.075)
             check_wls(study, contrast, rng)
-    if failures:
-        sys.exit(f"{len(failures)} check(s) failed: {failures}")
+    finish()
 
 
 if __name__ == "__main__":

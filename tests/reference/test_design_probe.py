@@ -8,7 +8,6 @@ variance_inflation_factor (Debian python3-statsmodels); the SVG is parsed with
 xml.etree.ElementTree. Run by ctest with BOLDSUM_PROBE_DIR set.
 """
 import os
-import subprocess
 import sys
 import tempfile
 import xml.etree.ElementTree as ET
@@ -19,15 +18,11 @@ from statsmodels.stats.outliers_influence import variance_inflation_factor
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import design_reference as ref  # noqa: E402
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import check, finish, probe_stdout  # noqa: E402
+
 PROBE = os.path.join(os.environ.get("BOLDSUM_PROBE_DIR", "."), "design_probe")
 TMP = tempfile.mkdtemp(prefix="design_probe_")
-failures = []
-
-
-def check(name, ok, detail=""):
-    print(("ok   " if ok else "FAIL ") + name + ("  " + detail if detail else ""))
-    if not ok:
-        failures.append(name)
 
 
 def write_model(case):
@@ -62,10 +57,7 @@ def write_model(case):
 
 
 def run_probe(path, mode):
-    out = subprocess.run([PROBE, path, mode], capture_output=True, text=True)
-    if out.returncode != 0:
-        raise SystemExit("design_probe failed: " + out.stderr)
-    return out.stdout
+    return probe_stdout(PROBE, path, mode)
 
 
 def reference(case, method):
@@ -244,7 +236,4 @@ check("empty condition warned", "condition 'rest' has no events in this run" in 
 print("largest absolute deviation from the continuous model: " +
       ", ".join("%s %.1e" % kv for kv in sorted(worst_exact.items())))
 
-if failures:
-    print("%d check(s) failed" % len(failures))
-    sys.exit(1)
-print("all checks passed")
+finish()

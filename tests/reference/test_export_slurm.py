@@ -17,14 +17,16 @@ not set up on a developer's machine. The stand-in checks what the scripts rely o
 import filecmp
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
 
 import yaml
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import copy_demo_roi_study, expect, file_tree, finish  # noqa: E402
+from checks import run_merged as run  # noqa: E402
+
 BIN = os.environ["BOLDSUM_BIN"]
-failures = []
 
 # A stand-in for sbatch: records its arguments, replies like `sbatch --parsable` with
 # "<id>;<cluster>". With SIMULATE=1 it also runs the job at once: every array task in
@@ -76,29 +78,6 @@ print(f"{job};testcluster")
 FAKE_BOLDSUM = '#!/bin/bash\n(IFS=$\'\\x01\'; printf "%s\\n" "$*") >> "$FAKE_BOLDSUM_LOG"\n'
 
 
-def check(name, ok, detail=""):
-    print(f"{'ok' if ok else 'FAILED'}: {name}{': ' + str(detail) if detail and not ok else ''}")
-    if not ok:
-        failures.append(name)
-
-
-def run(args, env=None, cwd=None, expect=0):
-    result = subprocess.run(args, env=env, cwd=cwd, stdout=subprocess.PIPE,
-                            stderr=subprocess.STDOUT, text=True)
-    if expect is not None and result.returncode != expect:
-        print(result.stdout)
-        sys.exit(f"command exited {result.returncode}, expected {expect}: {' '.join(args)}")
-    return result
-
-
-def tree(root):
-    found = set()
-    for folder, _, names in os.walk(root):
-        found.update(os.path.relpath(os.path.join(folder, n), root) for n in names
-                     if n != ".checksums.tsv")  # input-checksum cache, not a result
-    return found
-
-
 def write_executable(path, text):
     with open(path, "w") as f:
         f.write(text)
@@ -118,19 +97,8 @@ def check_array_mapping(folder, config, out, ids, offset, tasks, fake_log):
         calls = [line.rstrip("\n").split("\x01") for line in f]
     expected = [["fit", config, f"--subject={ids[offset + k]}", "--threads", "3", "--out", out,
                  "--quiet"] for k in range(tasks)]
-    check(f"array tasks 1-{tasks} at offset {offset} map to config subjects "
-          f"{offset + 1}-{offset + tasks}", calls == expected, f"{calls} != {expected}")
-
-
-def copy_demo_roi_study(study):
-    """The ROI part of `boldsum demo` (8 subjects, 2 runs each), as committed in
-    examples/melodies-roi (tests/study/demo_study_test.cc checks it equals the demo's);
-    copying it spares writing the demo's 100 MB of images."""
-    source = os.path.join(os.environ["BOLDSUM_SOURCE_DIR"], "examples", "melodies-roi")
-    if os.path.exists(os.path.join(source, "demo_roi.yaml")):
-        shutil.copytree(source, study)
-    else:
-        run([BIN, "demo", study])
+    expect(f"array tasks 1-{tasks} at offset {offset} map to config subjects "
+           f"{offset + 1}-{offset + tasks}", calls == expected, f"{calls} != {expected}")
 
 
 def main():
@@ -149,16 +117,16 @@ def main():
         scripts = ["fit_array.sbatch", "gather.sbatch", "submit.sh"]
         for name in scripts:
             path = os.path.join(folder, name)
-            check(f"bash -n {name}", run(["bash", "-n", path], expect=None).returncode == 0)
-            check(f"{name} is executable", os.access(path, os.X_OK))
+            expect(f"bash -n {name}", run(["bash", "-n", path], expect_code=None).returncode == 0)
+            expect(f"{name} is executable", os.access(path, os.X_OK))
         with open(os.path.join(folder, "subjects.txt")) as f:
-            check("subjects.txt lists the config's ids in order", f.read().split("\n") ==
-                  ids + [""])
+            expect("subjects.txt lists the config's ids in order", f.read().split("\n") ==
+                   ids + [""])
         with open(os.path.join(folder, "fit_array.sbatch")) as f:
             fit_text = f.read()
         for line in (f"#SBATCH --array=1-{len(ids)}", "#SBATCH --cpus-per-task=2",
                      "#SBATCH --mem=3000M", "#SBATCH --time=20", "#SBATCH --partition=short"):
-            check(f"fit_array.sbatch has '{line}'", line + "\n" in fit_text)
+            expect(f"fit_array.sbatch has '{line}'", line + "\n" in fit_text)
 
         fakes = os.path.join(top, "fakes")
         os.makedirs(fakes)
@@ -167,9 +135,9 @@ def main():
         check_array_mapping(folder, config, out, ids, 0, len(ids), fake_log)
         env = dict(os.environ, SLURM_ARRAY_TASK_ID=str(len(ids) + 1),
                    BOLDSUM=os.path.join(fakes, "fake boldsum"), FAKE_BOLDSUM_LOG=fake_log)
-        past = run(["bash", os.path.join(folder, "fit_array.sbatch")], env=env, expect=None)
-        check("an index past the list fails and says so", past.returncode != 0 and
-              f"no subject on line {len(ids) + 1}" in past.stdout, past.stdout)
+        past = run(["bash", os.path.join(folder, "fit_array.sbatch")], env=env, expect_code=None)
+        expect("an index past the list fails and says so", past.returncode != 0 and
+               f"no subject on line {len(ids) + 1}" in past.stdout, past.stdout)
 
         # The study queued as arrays of 3: 8 subjects -> offsets 0, 3, 6.
         chunked = os.path.join(top, "slurm chunked")
@@ -188,20 +156,20 @@ def main():
         with open(os.path.join(state, "calls.txt")) as f:
             calls = [line.rstrip("\n").split("\0") for line in f]
         arrays = [c for c in calls if c[-1].endswith("fit_array.sbatch")]
-        check("three arrays of at most 3 tasks, 2 running at once",
-              [next(a for a in c if a.startswith("--array=")) for c in arrays] ==
-              ["--array=1-3%2", "--array=1-3%2", "--array=1-2%2"], arrays)
-        check("array offsets 3 and 6 exported",
-              [next((a for a in c if a.startswith("--export=")), None) for c in arrays] ==
-              [None, "--export=ALL,BOLDSUM_ARRAY_OFFSET=3", "--export=ALL,BOLDSUM_ARRAY_OFFSET=6"])
+        expect("three arrays of at most 3 tasks, 2 running at once",
+               [next(a for a in c if a.startswith("--array=")) for c in arrays] ==
+               ["--array=1-3%2", "--array=1-3%2", "--array=1-2%2"], arrays)
+        expect("array offsets 3 and 6 exported",
+               [next((a for a in c if a.startswith("--export=")), None) for c in arrays] ==
+               [None, "--export=ALL,BOLDSUM_ARRAY_OFFSET=3", "--export=ALL,BOLDSUM_ARRAY_OFFSET=6"])
         gather = [c for c in calls if c[-1].endswith("gather.sbatch")]
-        check("gather waits for all three arrays (afterok) and is submitted last",
-              len(gather) == 1 and calls[-1] == gather[0] and
-              "--dependency=afterok:4100:4101:4102" in gather[0] and
-              "--kill-on-invalid-dep=yes" in gather[0], calls)
-        check("extra arguments reach every sbatch call", all("--qos=short" in c for c in calls))
-        check("submit.sh reports the job ids", "4100:4101:4102" in reply.stdout and
-              "4103" in reply.stdout, reply.stdout)
+        expect("gather waits for all three arrays (afterok) and is submitted last",
+               len(gather) == 1 and calls[-1] == gather[0] and
+               "--dependency=afterok:4100:4101:4102" in gather[0] and
+               "--kill-on-invalid-dep=yes" in gather[0], calls)
+        expect("extra arguments reach every sbatch call", all("--qos=short" in c for c in calls))
+        expect("submit.sh reports the job ids", "4100:4101:4102" in reply.stdout and
+               "4103" in reply.stdout, reply.stdout)
 
         # The simulated cluster runs the first folder's jobs with the real binary.
         shutil.rmtree(state)
@@ -210,24 +178,23 @@ def main():
         env.pop("BOLDSUM", None)
         run(["bash", os.path.join(folder, "submit.sh")], env=env)
         logs = sorted(os.listdir(os.path.join(folder, "logs")))
-        check("one log per array task and one for gather", len(logs) == len(ids) + 1, logs)
+        expect("one log per array task and one for gather", len(logs) == len(ids) + 1, logs)
         direct = os.path.join(top, "results direct")
         # The workflow writes no HTML report (a view of the whole study, not a result).
         run([BIN, "fit", config, "--out", direct, "--quiet", "--no-report"])
-        ours, reference = tree(out), tree(direct)
-        check("simulated cluster wrote the same files as a direct fit", ours == reference,
-              sorted(ours ^ reference))
-        check("pool-ready written by the gather job",
-              os.path.join("pool-ready", "subjects.tsv") in ours)
+        skip = {".checksums.tsv"}  # input-checksum cache, not a result
+        ours, reference = file_tree(out, skip), file_tree(direct, skip)
+        expect("simulated cluster wrote the same files as a direct fit", ours == reference,
+               sorted(ours ^ reference))
+        expect("pool-ready written by the gather job",
+               os.path.join("pool-ready", "subjects.tsv") in ours)
         differing = [p for p in sorted(ours & reference) if not filecmp.cmp(
             os.path.join(out, p), os.path.join(direct, p), shallow=False)]
-        check(f"{len(ours & reference)} files byte-identical to a direct fit", not differing,
-              differing)
+        expect(f"{len(ours & reference)} files byte-identical to a direct fit", not differing,
+               differing)
     finally:
         shutil.rmtree(top, ignore_errors=True)
-    if failures:
-        sys.exit(f"{len(failures)} check(s) failed: {failures}")
-    print("all SLURM workflow checks passed")
+    finish("all SLURM workflow checks passed")
 
 
 if __name__ == "__main__":

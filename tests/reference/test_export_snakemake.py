@@ -13,65 +13,35 @@ Uses the demo study's ROI config (demo_roi.yaml: 8 subjects, 2 runs each) to sta
 import filecmp
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import copy_demo_roi_study, expect, file_tree, finish, run_merged  # noqa: E402
+
 BIN = os.environ["BOLDSUM_BIN"]
 SNAKEMAKE = "/usr/bin/snakemake"
-failures = []
-
-
-def check(name, ok, detail=""):
-    print(f"{'ok' if ok else 'FAILED'}: {name}{': ' + detail if detail and not ok else ''}")
-    if not ok:
-        failures.append(name)
 
 
 def run(args, cwd=None, env=None):
-    result = subprocess.run(args, cwd=cwd, env=env, stdout=subprocess.PIPE,
-                            stderr=subprocess.STDOUT, text=True)
-    if result.returncode != 0:
-        print(result.stdout)
-        sys.exit(f"command failed ({result.returncode}): {' '.join(args)}")
-    return result.stdout
-
-
-def tree(root, skip=()):
-    """Relative paths of every file under root, except names in skip."""
-    files = set()
-    for folder, _, names in os.walk(root):
-        for name in names:
-            if name not in skip:
-                files.add(os.path.relpath(os.path.join(folder, name), root))
-    return files
+    """The output (stdout and stderr together) of a command that must succeed."""
+    return run_merged(args, cwd=cwd, env=env).stdout
 
 
 def compare_trees(name, ours, reference, skip):
-    ours_files, ref_files = tree(ours, skip), tree(reference, skip)
-    check(f"{name}: same files", ours_files == ref_files,
-          f"only in Snakemake run: {sorted(ours_files - ref_files)}; "
-          f"only in direct fit: {sorted(ref_files - ours_files)}")
+    ours_files, ref_files = file_tree(ours, skip), file_tree(reference, skip)
+    expect(f"{name}: same files", ours_files == ref_files,
+           f"only in Snakemake run: {sorted(ours_files - ref_files)}; "
+           f"only in direct fit: {sorted(ref_files - ours_files)}")
     differing = [f for f in sorted(ours_files & ref_files)
                  if not filecmp.cmp(os.path.join(ours, f), os.path.join(reference, f),
                                     shallow=False)]
-    check(f"{name}: {len(ours_files & ref_files)} files byte-identical", not differing,
-          f"differ: {differing}")
+    expect(f"{name}: {len(ours_files & ref_files)} files byte-identical", not differing,
+           f"differ: {differing}")
 
 
 def jobs_run(log, rule):
     return log.count(f"rule {rule}:") + log.count(f"localrule {rule}:")
-
-
-def copy_demo_roi_study(study):
-    """The ROI part of `boldsum demo` (8 subjects, 2 runs each), as committed in
-    examples/melodies-roi (tests/study/demo_study_test.cc checks it equals the demo's);
-    copying it spares writing the demo's 100 MB of images."""
-    source = os.path.join(os.environ["BOLDSUM_SOURCE_DIR"], "examples", "melodies-roi")
-    if os.path.exists(os.path.join(source, "demo_roi.yaml")):
-        shutil.copytree(source, study)
-    else:
-        run([BIN, "demo", study])
 
 
 def main():
@@ -90,23 +60,23 @@ def main():
         run([BIN, "export", "snakemake", config, "-o", snakefile, "--out", out, "--threads", "2"])
 
         log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir)
-        check("first run: one fit job per subject", jobs_run(log, "fit_subject") == 8,
-              f"{jobs_run(log, 'fit_subject')} jobs")
-        check("first run: one gather job", jobs_run(log, "gather") == 1)
+        expect("first run: one fit job per subject", jobs_run(log, "fit_subject") == 8,
+               f"{jobs_run(log, 'fit_subject')} jobs")
+        expect("first run: one gather job", jobs_run(log, "gather") == 1)
 
         direct = os.path.join(top, "results direct")
         # The workflow writes no HTML report (a view of the whole study, not a result).
         run([BIN, "fit", config, "--out", direct, "--quiet", "--no-report"])
-        check("direct fit gathered", os.path.exists(os.path.join(direct, "pool-ready",
-                                                                 "subjects.tsv")))
+        expect("direct fit gathered", os.path.exists(os.path.join(direct, "pool-ready",
+                                                                  "subjects.tsv")))
         # .workflow-stamp exists only in the Snakemake run; .checksums.tsv is boldsum's
         # cache of input checksums keyed by modification time, not a result.
         skip = {".workflow-stamp", ".checksums.tsv"}
         compare_trees("Snakemake vs direct fit", out, direct, skip)
 
         log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir)
-        check("second run: nothing to be done",
-              "Nothing to be done" in log and jobs_run(log, "fit_subject") == 0, log)
+        expect("second run: nothing to be done",
+               "Nothing to be done" in log and jobs_run(log, "fit_subject") == 0, log)
 
         # A comment added to the config: every subject job reruns (the config is newer
         # than the stamps) but boldsum finds each subject up to date and skips it.
@@ -119,11 +89,11 @@ def main():
                      for k in range(1, 9))
         os.utime(config, ns=(newest + 10**9, newest + 10**9))
         log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir)
-        check("after a config comment: subject jobs rerun", jobs_run(log, "fit_subject") == 8)
-        check("after a config comment: boldsum skipped s01 (summary.json untouched)",
-              os.stat(summary).st_mtime_ns == before)
+        expect("after a config comment: subject jobs rerun", jobs_run(log, "fit_subject") == 8)
+        expect("after a config comment: boldsum skipped s01 (summary.json untouched)",
+               os.stat(summary).st_mtime_ns == before)
         log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir)
-        check("after the rerun: nothing to be done", "Nothing to be done" in log, log)
+        expect("after the rerun: nothing to be done", "Nothing to be done" in log, log)
 
         # A subject folder removed by hand takes its stamp along: only it is refitted,
         # by the binary BOLDSUM names (a wrapper that records its calls).
@@ -137,15 +107,13 @@ def main():
         log = run([SNAKEMAKE, "-j", "2", "-s", snakefile], cwd=workdir, env=env)
         with open(calls) as f:
             recorded = f.read().splitlines()
-        check("removed subject refitted alone, then gathered, through BOLDSUM",
-              len(recorded) == 2 and "--subject=s03" in recorded[0]
-              and recorded[1].startswith("gather "), str(recorded))
+        expect("removed subject refitted alone, then gathered, through BOLDSUM",
+               len(recorded) == 2 and "--subject=s03" in recorded[0]
+               and recorded[1].startswith("gather "), str(recorded))
         compare_trees("after refitting s03", out, direct, skip)
     finally:
         shutil.rmtree(top, ignore_errors=True)
-    if failures:
-        sys.exit(f"{len(failures)} check(s) failed: {failures}")
-    print("all Snakemake workflow checks passed")
+    finish("all Snakemake workflow checks passed")
 
 
 if __name__ == "__main__":

@@ -10,7 +10,6 @@ is recomputed at the rho we report (17 significant digits in the ROI tables).
 """
 import json
 import os
-import subprocess
 import sys
 import tempfile
 
@@ -20,11 +19,12 @@ import scipy.linalg
 import scipy.stats
 import statsmodels.api as sm
 
-BIN = os.environ["BOLDSUM_BIN"]
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import boldsum, failures, finish  # noqa: E402
+
 rng = np.random.default_rng(7)
 TR = 2.0
 N = 120
-failures = []
 
 
 def check(name, ours, ref, rtol, atol=0.0):
@@ -136,8 +136,7 @@ def weights_for(names, spec):
 
 with tempfile.TemporaryDirectory() as root:
     make_study(root)
-    run = subprocess.run([BIN, "fit", os.path.join(root, "study.yaml"), "--threads", "2"],
-                         capture_output=True, text=True)
+    run = boldsum("fit", os.path.join(root, "study.yaml"), "--threads", "2")
     print(run.stdout, run.stderr)
     if run.returncode != 0:
         sys.exit("boldsum fit failed")
@@ -219,7 +218,4 @@ with tempfile.TemporaryDirectory() as root:
     if summary["runs"][0]["excluded_zero_variance"] != 1 or summary["runs"][0]["excluded_nonfinite"] != 1:
         failures.append("summary.json: excluded voxel counts")
 
-if failures:
-    print("FAILED:", "\n  ".join(sorted(set(failures))))
-    sys.exit(1)
-print("all checks passed")
+finish()

@@ -9,14 +9,15 @@ import hashlib
 import json
 import os
 import shutil
-import subprocess
 import sys
 import tempfile
 
 import nibabel as nib
 import numpy as np
 
-BIN = os.environ["BOLDSUM_BIN"]
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import boldsum, fail, finish  # noqa: E402
+
 rng = np.random.default_rng(11)
 TR = 2.0
 N = 60
@@ -25,12 +26,6 @@ AFFINE = np.array([[-2.5, 0, 0, 40], [0, 2.5, 0, -30], [0, 0, 3, -20], [0, 0, 0,
 ORDER = ["s03", "s01", "s04", "s02"]  # config order, not sorted
 NO_TUNE_B = "s04"                      # cannot estimate a_vs_b
 T_CONTRASTS = ["a_vs_b", "a_only"]
-failures = []
-
-
-def fail(message):
-    print("FAIL:", message)
-    failures.append(message)
 
 
 def read_tsv(path):
@@ -71,7 +66,7 @@ def make_study(root):
 
 
 def run(*args):
-    done = subprocess.run([BIN, *args], capture_output=True, text=True)
+    done = boldsum(*args)
     print(" ".join(args[:1]), "->", done.returncode, done.stdout, done.stderr)
     return done
 
@@ -164,6 +159,4 @@ with tempfile.TemporaryDirectory() as root:
     if digests(ready) != before or any(".pool-ready" in name for name in os.listdir(out)):
         fail("a refused gather changed pool-ready/ or left a staging folder")
 
-if failures:
-    sys.exit(f"{len(failures)} failure(s)")
-print("all gather checks passed")
+finish("all gather checks passed")

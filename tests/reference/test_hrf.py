@@ -6,7 +6,6 @@ memory); peak/undershoot times are common practice. Run by ctest with BOLDSUM_PR
 """
 import math
 import os
-import subprocess
 import sys
 
 import numpy as np
@@ -15,21 +14,15 @@ from scipy import stats
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
 import design_reference as ref  # noqa: E402
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import check, finish, probe_stdout  # noqa: E402
+
 PROBE = os.path.join(os.environ.get("BOLDSUM_PROBE_DIR", "."), "events_probe")
-failures = []
 
 
 def probe(*args):
-    out = subprocess.run([PROBE] + [str(a) for a in args], capture_output=True, text=True)
-    if out.returncode != 0:
-        raise SystemExit("events_probe failed: " + out.stderr)
-    return np.array([[float(v) for v in line.split()] for line in out.stdout.splitlines()])
-
-
-def check(name, ok, detail=""):
-    print(("ok   " if ok else "FAIL ") + name + ("  " + detail if detail else ""))
-    if not ok:
-        failures.append(name)
+    out = probe_stdout(PROBE, *args)
+    return np.array([[float(v) for v in line.split()] for line in out.splitlines()])
 
 
 times = np.concatenate([np.linspace(0.05, 32.0, 640), [0.0, -1.0, 32.5, 40.0]])
@@ -148,7 +141,4 @@ got = probe("fir", 1.5, 0, 2.0, 0.5, 40, "3:1:1", "10.999999:0:2", "50:5:1")
 want = ref.fir_columns([(3, 1, 1), (10.999999, 0, 2), (50, 5, 1)], 2.0, 0.5, 40, 1.5, 0)
 check("FIR = definition", got.shape == want.shape and np.array_equal(got, want))
 
-if failures:
-    print("%d check(s) failed" % len(failures))
-    sys.exit(1)
-print("all checks passed")
+finish()

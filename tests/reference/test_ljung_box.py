@@ -24,15 +24,11 @@ from scipy.linalg import toeplitz
 from statsmodels.stats.diagnostic import acorr_ljungbox
 from statsmodels.tsa.stattools import acf
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import check, finish  # noqa: E402
+
 PROBES = os.environ["BOLDSUM_PROBE_DIR"]
 BIN = os.environ["BOLDSUM_BIN"]
-failures = []
-
-
-def check(name, ok, detail=""):
-    print(("ok   " if ok else "FAIL ") + name + ("  " + detail if detail else ""))
-    if not ok:
-        failures.append(name)
 
 
 def rel(a, b):
@@ -233,7 +229,4 @@ with tempfile.TemporaryDirectory() as root:
     check("regions: Q = statsmodels GLS + Prais-Winsten + acorr_ljungbox (1e-6)", worst < 1e-6,
           "%.1e" % worst)
 
-if failures:
-    print("%d check(s) failed" % len(failures))
-    sys.exit(1)
-print("all checks passed")
+finish()

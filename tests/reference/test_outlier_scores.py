@@ -10,14 +10,10 @@ import sys
 import numpy as np
 from scipy.stats import median_abs_deviation
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import check, finish  # noqa: E402
+
 PROBE = os.path.join(os.environ["BOLDSUM_PROBE_DIR"], "stats_robust_probe")
-failures = []
-
-
-def check(name, ok, detail=""):
-    print(("ok   " if ok else "FAIL ") + name + ("  " + detail if detail else ""))
-    if not ok:
-        failures.append(name)
 
 
 rng = np.random.default_rng(3)
@@ -53,7 +49,4 @@ for k, (name, x) in enumerate(samples.items()):
 check("MAD 0 gives no scores", all(v == "nan" for v in rows[-3].split()[1:]), rows[-3])
 check("two values give no scores", all(v == "nan" for v in rows[-1].split()[1:]), rows[-1])
 print("largest difference from scipy: %.1e" % worst)
-if failures:
-    print("%d check(s) failed" % len(failures))
-    sys.exit(1)
-print("all checks passed")
+finish()

@@ -12,7 +12,6 @@
 """
 import base64
 import os
-import subprocess
 import sys
 import tempfile
 
@@ -22,21 +21,14 @@ from scipy import ndimage
 
 from png_reader import read_png
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), "..", "support"))
+from checks import check, finish, probe_stdout  # noqa: E402
+
 PROBE = os.path.join(os.environ["BOLDSUM_PROBE_DIR"], "report_probe")
-failures = []
-
-
-def check(name, ok, detail=""):
-    print(("ok   " if ok else "FAIL ") + name + ("  " + detail if detail else ""))
-    if not ok:
-        failures.append(name)
 
 
 def probe(*args):
-    out = subprocess.run([PROBE, *map(str, args)], capture_output=True, text=True)
-    if out.returncode != 0:
-        raise RuntimeError(out.stderr)
-    return out.stdout
+    return probe_stdout(PROBE, *args)
 
 
 with tempfile.TemporaryDirectory() as root:
@@ -109,7 +101,4 @@ for width, height in ((1, 1), (37, 5), (300, 260)):
     check("PNG %dx%d: base64 and zlib decode to the drawn pixels" % (width, height),
           ok and (w, h) == (width, height) and rows == expected)
 
-if failures:
-    print("%d check(s) failed" % len(failures))
-    sys.exit(1)
-print("all checks passed")
+finish()
