@@ -41,6 +41,7 @@ import time
 HERE = os.path.dirname(os.path.abspath(__file__))
 sys.path.insert(0, HERE)
 import synthetic_run  # noqa: E402
+from measure import load_average  # noqa: E402
 
 SCALES = {
     "full": {"dims": (91, 109, 91), "semi_axes": (36, 44, 35), "runs": ((300, 2.0), (1200, 0.8))},
@@ -53,11 +54,6 @@ TARGET_MEMORY = 0.35    # (c) peak RSS / uncompressed 4D size at the long run, a
 # a system whose libblas.so.3 is the reference BLAS makes numpy ~20x slower at GEMM.
 DEFAULT_BLAS = "/usr/lib/x86_64-linux-gnu/openblas-pthread"
 AGREEMENT = 1e-6        # (a) relative agreement asked of beta and variances
-
-
-def load_average():
-    with open("/proc/loadavg") as f:
-        return f.read().split()[0]
 
 
 def timed(command, **kwargs):
