@@ -53,9 +53,12 @@ class Error : public std::runtime_error {
   explicit Error(const std::string& message);
   Error(SourceLocation where, const std::string& message);
   const SourceLocation& where() const { return where_; }
+  // The message without the "file:line:column: " that what() puts before it.
+  const std::string& message() const { return message_; }
 
  private:
   SourceLocation where_;
+  std::string message_;
 };
 
 // The candidate closest to `word` by edit distance, or "" when none is close enough

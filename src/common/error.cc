@@ -40,11 +40,12 @@ int Diagnostics::ErrorCount() const {
   }));
 }
 
-Error::Error(const std::string& message) : std::runtime_error(message) {}
+Error::Error(const std::string& message) : std::runtime_error(message), message_(message) {}
 
 Error::Error(SourceLocation where, const std::string& message)
     : std::runtime_error(where.ToString().empty() ? message : where.ToString() + ": " + message),
-      where_(std::move(where)) {}
+      where_(std::move(where)),
+      message_(message) {}
 
 namespace {
 

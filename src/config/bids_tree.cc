@@ -94,10 +94,7 @@ const std::optional<SidecarTr>& BidsTree::SidecarRepetitionTime(const fs::path& 
   } catch (const Error& error) {
     SourceLocation where = error.where();
     where.file = shown.string();
-    std::string message = error.what();
-    const std::string prefix = error.where().ToString() + ": ";
-    if (message.compare(0, prefix.size(), prefix) == 0) message = message.substr(prefix.size());
-    AddProblem(where, message);
+    AddProblem(where, error.message());
   }
   return sidecars_.emplace(absolute.string(), tr).first->second;
 }

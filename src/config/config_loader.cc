@@ -1,10 +1,9 @@
 // LoadConfig: parse the YAML text, then read each section through the located readers.
 // Every problem becomes a diagnostic; nothing is written to disk.
 #include <filesystem>
-#include <fstream>
-#include <sstream>
 
 #include "boldsum/config.h"
+#include "boldsum/io.h"
 #include "config/participants_reader.h"
 #include "config/readers.h"
 
@@ -97,16 +96,16 @@ LoadedConfig LoadConfig(const std::string& path) {
   loaded.spec.config_dir = absolute.parent_path().string();
   config::YamlReader reader(path, loaded.spec.config_dir, &reporter);
 
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream text;
-  if (in) text << in.rdbuf();
-  if (!in || fs::is_directory(absolute)) {
+  std::string text;
+  try {
+    text = ReadFileBytes(path);
+  } catch (const Error&) {
     reader.Error(SourceLocation{path, 0, 0}, "cannot read the config file");
     loaded.diagnostics = reporter.Sorted();
     return loaded;
   }
   try {
-    const YAML::Node document = YAML::Load(text.str());
+    const YAML::Node document = YAML::Load(text);
     if (!document.IsDefined() || document.IsNull()) {
       reader.Error(SourceLocation{path, 0, 0},
                    "the config is empty; it needs at least tr, conditions and subjects");

@@ -1,8 +1,5 @@
 #include "config/json_members.h"
 
-#include <fstream>
-#include <sstream>
-
 #include "boldsum/io.h"
 
 namespace boldsum::config {
@@ -268,11 +265,13 @@ class JsonScanner {
 }  // namespace
 
 std::vector<JsonMember> ReadJsonMembers(const std::string& path) {
-  std::ifstream in(path, std::ios::binary);
-  std::ostringstream text;
-  if (in) text << in.rdbuf();
-  if (!in) throw Error(SourceLocation{path, 0, 0}, "cannot read the file");
-  return JsonScanner(path, text.str()).TopMembers();
+  std::string text;
+  try {
+    text = ReadFileBytes(path);
+  } catch (const Error&) {
+    throw Error(SourceLocation{path, 0, 0}, "cannot read the file");
+  }
+  return JsonScanner(path, std::move(text)).TopMembers();
 }
 
 }  // namespace boldsum::config

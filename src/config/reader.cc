@@ -209,12 +209,7 @@ std::optional<Table> YamlReader::ReadTableAt(const ResolvedPath& path,
   try {
     return ReadTable(path.shown);
   } catch (const boldsum::Error& error) {
-    // The message without the location prefix the Error carries; the location is kept.
-    const std::string text = error.what();
-    const std::string prefix = error.where().ToString() + ": ";
-    reporter_->Add(Severity::kError, error.where(),
-                   text.compare(0, prefix.size(), prefix) == 0 ? text.substr(prefix.size()) : text,
-                   anchor);
+    reporter_->Add(Severity::kError, error.where(), error.message(), anchor);
     return std::nullopt;
   }
 }

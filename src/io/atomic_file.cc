@@ -10,9 +10,7 @@
 #include <cstdio>
 #include <cstdlib>
 #include <cstring>
-#include <fstream>
 #include <random>
-#include <sstream>
 
 #include "boldsum/error.h"
 #include "boldsum/io.h"
@@ -107,8 +105,8 @@ void WriteFileAtomically(const std::string& path, const std::string& contents) {
 }
 
 std::string ReadFileBytes(const std::string& path) {
-  // Read into a string of the file's size: no growing buffer and no second copy (fit
-  // parameters run to hundreds of MB).
+  // Read into a string of the file's size (grown only for files whose size the kernel
+  // does not report, such as those under /proc): no growing buffer, no second copy.
   const int fd = ::open(path.c_str(), O_RDONLY | O_CLOEXEC);
   if (fd < 0) throw Error(path + ": cannot read the file (" + Reason() + ")");
   std::string bytes;

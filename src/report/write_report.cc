@@ -6,10 +6,8 @@
 #include <chrono>
 #include <cmath>
 #include <filesystem>
-#include <fstream>
 #include <mutex>
 #include <ostream>
-#include <sstream>
 #include <thread>
 
 #include "boldsum/report.h"

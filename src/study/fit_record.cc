@@ -8,7 +8,6 @@
 #include <cstring>
 
 #include "boldsum/error.h"
-#include "boldsum/io.h"
 #include "common/huge_pages.h"
 
 namespace boldsum {
