@@ -148,8 +148,7 @@ void ByteSource::PutBackOverread() {
   const int padding = bits % 8;
   for (int i = whole - 1; i >= 0; --i) {
     --next_in_;  // never before in_.data(): Refill() leaves kHeadroom >= 8 bytes free
-    *const_cast<unsigned char*>(next_in_) =
-        static_cast<unsigned char>(state.read_in >> (padding + 8 * i));
+    *next_in_ = static_cast<unsigned char>(state.read_in >> (padding + 8 * i));
     ++avail_in_;
   }
   state.read_in = 0;
@@ -184,7 +183,7 @@ size_t ByteSource::Read(void* dst, size_t n) {
     if (avail_in_ == 0) Refill();
     const size_t want = std::min(n - done, kMaxChunk);
     const uint32_t offered = static_cast<uint32_t>(std::min<size_t>(avail_in_, kMaxChunk));
-    state.next_in = const_cast<uint8_t*>(next_in_);
+    state.next_in = next_in_;
     state.avail_in = offered;
     state.next_out = out + done;
     state.avail_out = static_cast<uint32_t>(want);

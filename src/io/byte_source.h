@@ -58,7 +58,7 @@ class ByteSource {
   // bytes the inflater read past the end of a member can be put back before next_in_.
   static constexpr size_t kHeadroom = 16;
   std::vector<unsigned char> in_;
-  const unsigned char* next_in_ = nullptr;
+  unsigned char* next_in_ = nullptr;
   size_t avail_in_ = 0;
   // Raw deflate by ISA-L's inflater (about twice zlib's speed), which also keeps the
   // CRC-32 of the output; the gzip framing is read here.

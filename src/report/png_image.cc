@@ -44,8 +44,8 @@ std::string EncodePng(const RgbImage& image) {
                static_cast<png_uint_32>(image.height), 8, PNG_COLOR_TYPE_RGB, PNG_INTERLACE_NONE,
                PNG_COMPRESSION_TYPE_DEFAULT, PNG_FILTER_TYPE_DEFAULT);
   // zlib level 1: the pictures are flat colour fields and grey slices, which level 1
-  // packs nearly as well as the default level 6 at a fraction of the time (measured on
-  // the 40-subject study report: see the commit message).
+  // packs nearly as well as the default level 6 in less time (measured on the 40-subject
+  // demo study, pictures then drawn 4x: report 2.8 s -> 2.5 s, its folder 52 -> 54 MB).
   png_set_compression_level(png, 1);
   png_set_rows(png, info, rows.data());
   png_write_png(png, info, PNG_TRANSFORM_IDENTITY, nullptr);

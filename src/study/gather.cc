@@ -10,6 +10,7 @@
 #include <cmath>
 #include <cstdio>
 #include <filesystem>
+#include <iterator>
 #include <limits>
 #include <map>
 #include <ostream>
@@ -69,9 +70,7 @@ std::string DescribeGrid(const ImageGeometry& g) {
 }
 
 // Empty when the subject's recorded fingerprint matches the config and its inputs;
-// otherwise why it is out of date.
-// Why the subject's results are out of date ("" when they are not); `model_sha256` gets
-// the recorded fit fingerprint.
+// otherwise why it is out of date. `model_sha256` gets the recorded fit fingerprint.
 std::string Staleness(const StudySpec& spec, const SubjectSpec& subject, const std::string& summary,
                       ChecksumCache* checksums, std::string* model_sha256) {
   const RecordedFingerprint recorded = ReadRecordedFingerprint(summary);
@@ -302,6 +301,8 @@ GatherPlan PlanGather(const StudySpec& spec, const StudyOptions& options) {
 // <key>", identify each contrast's pair of stacks alone (see StackKey), so that a gather
 // after a contrast edit keeps the stacks of the contrasts that did not change.
 constexpr const char* kSourcesFile = ".sources";
+// The two stacks of a t contrast: <name><kind>.
+constexpr const char* kStackKinds[] = {".estimate.nii.gz", ".variance.nii.gz"};
 
 std::string SourcesKey(const StudySpec& spec, const GatherPlan& plan) {
   std::string key = std::string("boldsum ") + BOLDSUM_VERSION + "\n";
@@ -365,14 +366,13 @@ Sources ReadSources(const fs::path& folder) {
   return sources;
 }
 
-// True when the folder's key equals `key` and every file a gather writes is there.
-bool IsUpToDate(const GatherPlan& plan, const fs::path& folder, const std::string& key) {
+// True when every file a gather writes is in the folder.
+bool HasEveryFile(const GatherPlan& plan, const fs::path& folder) {
   std::vector<std::string> files = {kSourcesFile, "subjects.tsv"};
   if (plan.kind == DataKind::kImage) {
     files.push_back("mask.nii.gz");
     for (const ContrastSpec* contrast : plan.t_contrasts) {
-      files.push_back(contrast->name + ".estimate.nii.gz");
-      files.push_back(contrast->name + ".variance.nii.gz");
+      for (const char* kind : kStackKinds) files.push_back(contrast->name + kind);
     }
   } else {
     files.push_back("summaries.tsv");
@@ -381,7 +381,7 @@ bool IsUpToDate(const GatherPlan& plan, const fs::path& folder, const std::strin
   for (const std::string& file : files) {
     if (!fs::is_regular_file(folder / file, ec)) return false;
   }
-  return ReadSources(folder).key == key;
+  return true;
 }
 
 void WriteSubjectsTable(const GatherPlan& plan, const OutputStage& stage, std::ostream* log) {
@@ -455,17 +455,18 @@ void WriteImageStacks(const GatherPlan& plan, const OutputStage& stage, const fs
     const auto earlier = before.stacks.find(contrast->name);
     if (!key.empty() && earlier != before.stacks.end() && earlier->second == key) {
       std::error_code ec;
-      const std::string estimate = contrast->name + ".estimate.nii.gz";
-      const std::string variance = contrast->name + ".variance.nii.gz";
-      if (fs::is_regular_file(old_folder / estimate, ec) &&
-          fs::is_regular_file(old_folder / variance, ec)) {
-        stage.Adopt(estimate, (old_folder / estimate).string());
-        stage.Adopt(variance, (old_folder / variance).string());
+      const auto there = [&](const char* kind) {
+        return fs::is_regular_file(old_folder / (contrast->name + kind), ec);
+      };
+      if (std::all_of(std::begin(kStackKinds), std::end(kStackKinds), there)) {
+        for (const char* kind : kStackKinds) {
+          stage.Adopt(contrast->name + kind, (old_folder / (contrast->name + kind)).string());
+        }
         kept.push_back(contrast->name);
         continue;
       }
     }
-    for (const char* kind : {".estimate.nii.gz", ".variance.nii.gz"}) {
+    for (const char* kind : kStackKinds) {
       std::vector<float> stack(voxels * static_cast<size_t>(n), kNaN);
       for (size_t i = 0; i < plan.subjects.size(); ++i) {
         const SubjectInputs& subject = plan.subjects[i];
@@ -511,11 +512,11 @@ void GatherStudy(const StudySpec& spec, const StudyOptions& options, std::ostrea
   std::ostream* out = options.quiet ? nullptr : &log;
   const fs::path folder = fs::path(plan.root) / kPoolReadyFolder;
   const std::string key = SourcesKey(spec, plan);
-  if (IsUpToDate(plan, folder, key)) {
+  const Sources before = ReadSources(folder);
+  if (before.key == key && HasEveryFile(plan, folder)) {
     if (out) *out << folder.string() << ": up to date, not gathered again\n";
     return;
   }
-  const Sources before = ReadSources(folder);
   Sources after;
   after.key = key;
   OutputStage stage(plan.root, kPoolReadyFolder);
