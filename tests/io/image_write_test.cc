@@ -6,7 +6,6 @@
 #include <sys/resource.h>
 
 #include <cmath>
-#include <functional>
 #include <limits>
 #include <thread>
 
@@ -16,16 +15,8 @@
 namespace boldsum {
 namespace {
 
+using testing::ErrorOf;
 using testing::ScratchDir;
-
-std::string ErrorOf(const std::function<void()>& body) {
-  try {
-    body();
-  } catch (const Error& e) {
-    return e.what();
-  }
-  return "(no error)";
-}
 
 ImageGeometry Oblique(int n_volumes) {
   ImageGeometry g;

@@ -1,6 +1,6 @@
-// Test helpers: a scratch folder, and NIfTI files written byte by byte from the header
-// layouts of the NIfTI-1 and NIfTI-2 standards (nifti1.h, nifti2.h), independently of
-// boldsum's writer and of nifticlib's.
+// Test helpers: the error a call throws, a scratch folder, and NIfTI files written byte
+// by byte from the header layouts of the NIfTI-1 and NIfTI-2 standards (nifti1.h,
+// nifti2.h), independently of boldsum's writer and of nifticlib's.
 #pragma once
 
 #include <nifti1.h>
@@ -13,11 +13,24 @@
 #include <cstring>
 #include <filesystem>
 #include <fstream>
+#include <functional>
 #include <iterator>
 #include <string>
 #include <vector>
 
+#include "boldsum/error.h"
+
 namespace boldsum::testing {
+
+// What `body` throws as boldsum::Error (its what()), or "(no error)".
+inline std::string ErrorOf(const std::function<void()>& body) {
+  try {
+    body();
+  } catch (const Error& e) {
+    return e.what();
+  }
+  return "(no error)";
+}
 
 // A fresh folder under $BOLDSUM_TMP (or /tmp), removed with its contents at the end.
 class ScratchDir {

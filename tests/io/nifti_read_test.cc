@@ -5,7 +5,6 @@
 #include <gtest/gtest.h>
 
 #include <cmath>
-#include <functional>
 #include <limits>
 
 #include "boldsum/io.h"
@@ -14,20 +13,12 @@
 namespace boldsum {
 namespace {
 
+using testing::ErrorOf;
 using testing::HeaderBytes;
 using testing::HeaderSpec;
 using testing::RawBytes;
 using testing::ScratchDir;
 using testing::WriteBytes;
-
-std::string ErrorOf(const std::function<void()>& body) {
-  try {
-    body();
-  } catch (const Error& e) {
-    return e.what();
-  }
-  return "(no error)";
-}
 
 // Every row of the stream, all voxels, in order.
 std::vector<float> StreamAll(const std::string& path, int block) {

@@ -13,16 +13,8 @@
 namespace boldsum {
 namespace {
 
+using testing::ErrorOf;
 using testing::ScratchDir;
-
-std::string ErrorOf(const std::string& path) {
-  try {
-    ReadFileBytes(path);
-  } catch (const Error& e) {
-    return e.what();
-  }
-  return "(no error)";
-}
 
 TEST(ReadFileBytes, EveryByte) {
   ScratchDir dir;
@@ -44,9 +36,11 @@ TEST(ReadFileBytes, FileWhoseSizeIsNotKnownAhead) {
 TEST(ReadFileBytes, ErrorsNameThePath) {
   ScratchDir dir;
   const std::string missing = dir / "missing.txt";
-  EXPECT_EQ(ErrorOf(missing).find(missing + ": cannot read the file"), 0u);
+  EXPECT_EQ(ErrorOf([&] { ReadFileBytes(missing); }).find(missing + ": cannot read the file"),
+            0u);
   std::filesystem::create_directories(dir / "folder");
-  EXPECT_NE(ErrorOf(dir / "folder").find("it is a folder"), std::string::npos);
+  EXPECT_NE(ErrorOf([&] { ReadFileBytes(dir / "folder"); }).find("it is a folder"),
+            std::string::npos);
 }
 
 }  // namespace

@@ -5,7 +5,6 @@
 #include <zlib.h>
 
 #include <fstream>
-#include <functional>
 #include <numeric>
 
 #include "boldsum/io.h"
@@ -14,6 +13,7 @@
 namespace boldsum {
 namespace {
 
+using testing::ErrorOf;
 using testing::HeaderBytes;
 using testing::HeaderSpec;
 using testing::RawBytes;
@@ -65,15 +65,6 @@ Eigen::MatrixXf Expected(const std::vector<int64_t>& voxels, int n_volumes) {
     for (size_t j = 0; j < voxels.size(); ++j) m(t, Eigen::Index(j)) = float(1000 * t + voxels[j]);
   }
   return m;
-}
-
-std::string ErrorOf(const std::function<void()>& body) {
-  try {
-    body();
-  } catch (const Error& e) {
-    return e.what();
-  }
-  return "(no error)";
 }
 
 TEST(VolumeStream, BlockBoundaries) {
