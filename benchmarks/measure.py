@@ -1,9 +1,19 @@
-"""Shared by the benchmark scripts: the load average and one command timed under
-/usr/bin/time -v (wall seconds, CPU seconds, peak resident memory)."""
+"""Shared by the benchmark scripts: the boldsum binary of a build folder, the load
+average and one command timed under /usr/bin/time -v (wall seconds, CPU seconds, peak
+resident memory)."""
+import os
 import re
 import subprocess
 import sys
 import time
+
+
+def boldsum_binary(build):
+    """The absolute path of `build`/boldsum; exits with a hint when it is not built."""
+    boldsum = os.path.abspath(os.path.join(build, "boldsum"))
+    if not os.access(boldsum, os.X_OK):
+        sys.exit("no %s: build first (scripts/build)" % boldsum)
+    return boldsum
 
 
 def load_average():

@@ -30,7 +30,7 @@ import nibabel
 import numpy as np
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from measure import run_timed  # noqa: E402
+from measure import boldsum_binary, run_timed  # noqa: E402
 
 DIMS = (91, 109, 91)
 SEMI_AXES = (36, 44, 35)
@@ -103,9 +103,7 @@ def main():
     parser.add_argument("--subjects", type=int, default=40)
     parser.add_argument("--work", default="/tmp/boldsum-pool-bench")
     args = parser.parse_args()
-    boldsum = os.path.abspath(os.path.join(args.build, "boldsum"))
-    if not os.access(boldsum, os.X_OK):
-        sys.exit("no %s: build first (scripts/build)" % boldsum)
+    boldsum = boldsum_binary(args.build)
     folder = os.path.join(args.work, "s%d" % args.subjects)
     os.makedirs(folder, exist_ok=True)
     write_input(folder, args.subjects)

@@ -31,7 +31,7 @@ import sys
 import time
 
 sys.path.insert(0, os.path.dirname(os.path.abspath(__file__)))
-from measure import load_average, run_timed  # noqa: E402
+from measure import boldsum_binary, load_average, run_timed  # noqa: E402
 
 PER_DEMO = 8            # volunteers per demo folder
 TARGET_UNCHANGED = 20.0  # first fit / unchanged re-run, at least
@@ -83,9 +83,7 @@ def main():
     parser.add_argument("--subjects", type=int, default=40)
     parser.add_argument("--work", default="/tmp/boldsum-study-bench")
     args = parser.parse_args()
-    boldsum = os.path.abspath(os.path.join(args.build, "boldsum"))
-    if not os.access(boldsum, os.X_OK):
-        sys.exit("no %s: build first (scripts/build)" % boldsum)
+    boldsum = boldsum_binary(args.build)
     os.makedirs(args.work, exist_ok=True)
     cores = os.cpu_count()
 
